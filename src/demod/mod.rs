@@ -1,0 +1,1 @@
+//! Detectors and per-mode receivers.

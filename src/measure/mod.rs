@@ -1,0 +1,11 @@
+//! Measurements: spectra, carrier and CNR estimates, modulation depth, tone frequency, SINAD.
+
+pub mod carrier;
+pub mod modulation;
+pub mod spectrum;
+pub mod tone;
+
+pub use carrier::{estimate_cnr_db, find_carrier, CarrierPeak};
+pub use modulation::{ModulationDepth, ModulationMeter};
+pub use spectrum::PowerSpectrum;
+pub use tone::{estimate_tone_hz, sinad_db, ToneFit};

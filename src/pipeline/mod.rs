@@ -1,0 +1,1 @@
+//! The streaming runtime and the receive job.

@@ -1,0 +1,40 @@
+//! Sample types: complex baseband `Complex32` and real audio `f32`.
+
+use num_complex::Complex32;
+use std::ops::{Add, AddAssign, Mul, Sub};
+
+/// A sample a filter can carry: real `f32` or complex `Complex32`, scaled by real `f32` taps.
+pub trait Sample:
+    Copy
+    + Default
+    + Send
+    + Sync
+    + std::fmt::Debug
+    + PartialEq
+    + 'static
+    + Add<Output = Self>
+    + AddAssign
+    + Sub<Output = Self>
+    + Mul<f32, Output = Self>
+{
+    /// The additive zero.
+    const ZERO: Self;
+    /// True when every component is finite.
+    fn is_finite_sample(&self) -> bool;
+}
+
+impl Sample for f32 {
+    const ZERO: Self = 0.0;
+    #[inline]
+    fn is_finite_sample(&self) -> bool {
+        self.is_finite()
+    }
+}
+
+impl Sample for Complex32 {
+    const ZERO: Self = Complex32::new(0.0, 0.0);
+    #[inline]
+    fn is_finite_sample(&self) -> bool {
+        self.re.is_finite() && self.im.is_finite()
+    }
+}

@@ -1,0 +1,1 @@
+//! Carrier recovery: phase-locked loops and Costas loops (coherent modes).
