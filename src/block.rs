@@ -137,3 +137,30 @@ impl<A: Block, B: Block<Input = A::Output>> Block for Chain<A, B> {
         self.second.reset();
     }
 }
+
+/// Runs `block` over `input` split into pieces whose sizes come from `sizes` (cycled), with an
+/// output buffer just large enough for each piece. Allocates: for chunk-invariance tests.
+pub fn process_in_chunks<B: Block + ?Sized>(
+    block: &mut B,
+    input: &[B::Input],
+    sizes: &[usize],
+) -> Vec<B::Output> {
+    let mut out = Vec::new();
+    let mut at = 0;
+    let mut piece = vec![B::Output::default(); 0];
+    for &size in sizes.iter().cycle() {
+        if at >= input.len() {
+            break;
+        }
+        let n = size.max(1).min(input.len() - at);
+        piece.resize(block.max_output_len(n), B::Output::default());
+        let (consumed, produced) = block.process(&input[at..at + n], &mut piece);
+        debug_assert_eq!(
+            consumed, n,
+            "block did not consume a piece that fits its output"
+        );
+        out.extend_from_slice(&piece[..produced]);
+        at += consumed.max(1);
+    }
+    out
+}

@@ -1,1 +1,279 @@
-fn main() {}
+//! `amrx`: the command-line receiver. Argument parsing and wiring only; the work is in the
+//! library.
+
+use amrx::demod::Mode;
+use amrx::io::{InputOptions, SampleFormat};
+use amrx::pipeline::demo::{default_demo_dir, run_demo, DemoRow};
+use amrx::pipeline::{info, run_demod, AudioTarget, DemodRequest, Tuning};
+use amrx::Error;
+use clap::{Args, Parser, Subcommand, ValueEnum};
+use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
+use std::io::IsTerminal;
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+/// Receiver for the amplitude-modulation family: IQ recordings in, audio out.
+#[derive(Parser, Debug)]
+#[command(name = "amrx", version, about)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+enum Command {
+    /// Demodulate one emission from an IQ recording to audio.
+    Demod(DemodArgs),
+    /// Show what a recording holds.
+    Info {
+        /// The recording (SigMF, IQ WAV, raw file or - for standard input).
+        input: PathBuf,
+        #[command(flatten)]
+        input_options: InputArgs,
+    },
+    /// Write an invented scene of stations as SigMF, receive each, and print what was measured.
+    Demo {
+        /// Folder for the recording, audio and reports (default: amrx-demo in the temp folder).
+        dir: Option<PathBuf>,
+    },
+}
+
+#[derive(Args, Debug)]
+struct InputArgs {
+    /// Raw sample format (raw files and standard input).
+    #[arg(long, value_parser = parse_format)]
+    format: Option<SampleFormat>,
+    /// Sample rate in Hz (raw input, or a SigMF recording without core:sample_rate).
+    #[arg(long)]
+    rate: Option<f64>,
+    /// Channel of a multi-channel SigMF recording (0-based).
+    #[arg(long, default_value_t = 0)]
+    channel: usize,
+}
+
+#[derive(Args, Debug)]
+struct DemodArgs {
+    /// The IQ input (NAME.sigmf-meta or NAME.sigmf-data, an IQ WAV, a raw file, or -).
+    input: PathBuf,
+    /// Receive mode.
+    #[arg(long, value_enum)]
+    mode: ModeArg,
+    /// Carrier frequency relative to the recording centre, in Hz.
+    #[arg(long, allow_negative_numbers = true, conflicts_with = "carrier")]
+    offset: Option<f64>,
+    /// Absolute carrier frequency in Hz (needs the recording's centre frequency).
+    #[arg(long)]
+    carrier: Option<f64>,
+    /// Audio sample rate in Hz.
+    #[arg(long, default_value_t = 48000.0)]
+    audio_rate: f64,
+    /// Audio bandwidth in Hz (the mode's default when absent).
+    #[arg(long)]
+    bandwidth: Option<f64>,
+    /// Sideband to keep (sam only).
+    #[arg(long, value_enum)]
+    sideband: Option<SidebandArg>,
+    /// Output WAV file, or - for raw f32 on standard output.
+    #[arg(long)]
+    out: PathBuf,
+    /// Write 16-bit PCM instead of 32-bit float.
+    #[arg(long)]
+    pcm16: bool,
+    /// Write a JSON report of what was measured.
+    #[arg(long)]
+    report: Option<PathBuf>,
+    /// No progress bar.
+    #[arg(long)]
+    quiet: bool,
+    #[command(flatten)]
+    input_options: InputArgs,
+}
+
+#[derive(ValueEnum, Clone, Copy, Debug)]
+enum ModeArg {
+    Am,
+    Sam,
+    Dsb,
+    Usb,
+    Lsb,
+    Isb,
+    Vsb,
+}
+
+#[derive(ValueEnum, Clone, Copy, Debug)]
+enum SidebandArg {
+    Upper,
+    Lower,
+}
+
+fn parse_format(name: &str) -> Result<SampleFormat, String> {
+    SampleFormat::parse(name).ok_or_else(|| {
+        format!(
+            "unknown format '{name}' ({})",
+            amrx::io::format::supported_names()
+        )
+    })
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let outcome = match cli.command {
+        Command::Demod(args) => demod(args),
+        Command::Info {
+            input,
+            input_options,
+        } => show_info(&input, &input_options),
+        Command::Demo { dir } => demo(dir.unwrap_or_else(default_demo_dir)),
+    };
+    match outcome {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(message) => {
+            eprintln!("amrx: {message}");
+            ExitCode::FAILURE
+        }
+    }
+}
+
+impl InputArgs {
+    fn options(&self) -> InputOptions {
+        InputOptions {
+            format: self.format,
+            rate: self.rate,
+            channel: self.channel,
+        }
+    }
+}
+
+impl ModeArg {
+    fn mode(self) -> Mode {
+        match self {
+            ModeArg::Am => Mode::Am,
+            ModeArg::Sam => Mode::Sam,
+            ModeArg::Dsb => Mode::Dsb,
+            ModeArg::Usb => Mode::Usb,
+            ModeArg::Lsb => Mode::Lsb,
+            ModeArg::Isb => Mode::Isb,
+            ModeArg::Vsb => Mode::Vsb,
+        }
+    }
+}
+
+/// One line naming the file for errors that do not name one themselves.
+fn with_input(input: &Path, error: Error) -> String {
+    match error {
+        Error::Io { .. } | Error::InvalidFile { .. } => error.to_string(),
+        other => format!("{}: {other}", input.display()),
+    }
+}
+
+fn demod(args: DemodArgs) -> Result<(), String> {
+    let mode = args.mode.mode();
+    if args.sideband.is_some() && mode != Mode::Sam {
+        return Err(format!(
+            "{}: --sideband applies to --mode sam only, not {mode}",
+            args.input.display()
+        ));
+    }
+    let tuning = match (args.offset, args.carrier) {
+        (Some(offset), _) => Tuning::Offset(offset),
+        (None, Some(carrier)) => Tuning::Carrier(carrier),
+        (None, None) => Tuning::Centre,
+    };
+    let audio = if args.out.as_os_str() == "-" {
+        AudioTarget::Stdout
+    } else {
+        AudioTarget::Wav {
+            path: args.out.clone(),
+            pcm16: args.pcm16,
+        }
+    };
+    let request = DemodRequest {
+        input: args.input.clone(),
+        input_options: args.input_options.options(),
+        mode,
+        tuning,
+        audio_rate: args.audio_rate,
+        bandwidth_hz: args.bandwidth,
+        audio,
+        report: args.report.clone(),
+    };
+    let bar = progress_bar(args.quiet);
+    let report =
+        run_demod(&request, &|n| bar.set_position(n)).map_err(|e| with_input(&args.input, e));
+    bar.finish_and_clear();
+    let report = report?;
+    if !args.quiet {
+        for warning in &report.warnings {
+            eprintln!("amrx: warning: {}: {warning}", args.input.display());
+        }
+    }
+    Ok(())
+}
+
+fn progress_bar(quiet: bool) -> ProgressBar {
+    if quiet || !std::io::stderr().is_terminal() {
+        return ProgressBar::with_draw_target(None, ProgressDrawTarget::hidden());
+    }
+    let bar = ProgressBar::no_length();
+    bar.set_style(
+        ProgressStyle::with_template("{spinner} {human_pos} samples  {per_sec}  {elapsed}")
+            .unwrap_or_else(|_| ProgressStyle::default_spinner()),
+    );
+    bar
+}
+
+fn show_info(input: &Path, options: &InputArgs) -> Result<(), String> {
+    let summary = info::describe(input, &options.options()).map_err(|e| with_input(input, e))?;
+    print!("{summary}");
+    Ok(())
+}
+
+fn demo(dir: PathBuf) -> Result<(), String> {
+    let (recording, rows) = run_demo(&dir).map_err(|e| e.to_string())?;
+    println!(
+        "amrx demo: invented scene written to {}",
+        recording.display()
+    );
+    println!(
+        "{:<8} {:<4} {:>10} {:>11} {:>7} {:>6} {:>6} {:>8} {:>7}  notes",
+        "station", "mode", "offset Hz", "carrier Hz", "CNR dB", "mod+", "mod-", "tone Hz", "SINAD"
+    );
+    for row in &rows {
+        println!("{}", demo_line(row));
+    }
+    println!("audio and JSON reports are in {}", dir.display());
+    Ok(())
+}
+
+fn demo_line(row: &DemoRow) -> String {
+    let s = &row.station;
+    let head = format!(
+        "{:<8} {:<4} {:>10.0}",
+        s.call_sign,
+        s.mode.name(),
+        s.offset_hz
+    );
+    match &row.outcome {
+        Err(why) => format!(
+            "{head} {:>11} {:>7} {:>6} {:>6} {:>8} {:>7}  {why}",
+            "-", "-", "-", "-", "-", "-"
+        ),
+        Ok(rx) => {
+            let r = &rx.report;
+            let opt = |v: Option<f64>, digits: usize| {
+                v.map_or("-".to_string(), |x| format!("{x:.digits$}"))
+            };
+            let depth = r.modulation_depth;
+            format!(
+                "{head} {:>11} {:>7} {:>6} {:>6} {:>8} {:>7}  {}",
+                opt(r.carrier_offset_hz, 1),
+                opt(r.cnr_db, 1),
+                opt(depth.map(|d| 100.0 * d.positive), 0),
+                opt(depth.map(|d| 100.0 * d.negative), 0),
+                opt(rx.tone_hz, 1),
+                opt(rx.sinad_db, 1),
+                r.warnings.join("; ")
+            )
+        }
+    }
+}

@@ -1,1 +1,11 @@
-//! The streaming runtime and the receive job.
+//! The streaming runtime and the receive jobs behind the command line.
+
+pub mod demo;
+pub mod info;
+pub mod job;
+pub mod report;
+pub mod runtime;
+
+pub use job::{run_demod, AudioTarget, DemodRequest, Tuning};
+pub use report::Report;
+pub use runtime::{run_stream, RunTotals, RuntimeConfig};

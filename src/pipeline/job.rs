@@ -1,0 +1,193 @@
+//! The receive job: open the input, build the mode's receiver, stream to the audio sink, report.
+
+use super::report::Report;
+use super::runtime::{run_stream, RuntimeConfig};
+use crate::demod::{AmConfig, AmReceiver, Mode, Receiver};
+use crate::io::{open_input, AudioSink, InputOptions, IqSource, RawAudioSink, WavAudioSink};
+use crate::{Error, Result};
+use std::path::{Path, PathBuf};
+
+/// Where the receiver is tuned.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub enum Tuning {
+    /// The recording centre.
+    #[default]
+    Centre,
+    /// Carrier offset from the recording centre in Hz.
+    Offset(f64),
+    /// Absolute carrier frequency in Hz (needs the recording's centre frequency).
+    Carrier(f64),
+}
+
+/// Where the audio goes.
+#[derive(Debug, Clone, PartialEq)]
+pub enum AudioTarget {
+    /// A WAV file; 16-bit PCM when `pcm16`, else 32-bit float.
+    Wav {
+        /// The file.
+        path: PathBuf,
+        /// 16-bit PCM instead of 32-bit float.
+        pcm16: bool,
+    },
+    /// Raw little-endian f32 on standard output.
+    Stdout,
+}
+
+/// Everything a `demod` run needs.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DemodRequest {
+    /// The IQ input (`-` for standard input).
+    pub input: PathBuf,
+    /// Format, rate and channel options for the input.
+    pub input_options: InputOptions,
+    /// Receive mode.
+    pub mode: Mode,
+    /// Tuning.
+    pub tuning: Tuning,
+    /// Audio rate in Hz.
+    pub audio_rate: f64,
+    /// Audio bandwidth in Hz; the mode's default when `None`.
+    pub bandwidth_hz: Option<f64>,
+    /// Audio destination.
+    pub audio: AudioTarget,
+    /// Where to write the JSON report, if anywhere.
+    pub report: Option<PathBuf>,
+}
+
+impl DemodRequest {
+    /// A request with the default audio rate and bandwidth, tuned to the centre.
+    pub fn new(input: impl Into<PathBuf>, mode: Mode, audio: AudioTarget) -> Self {
+        DemodRequest {
+            input: input.into(),
+            input_options: InputOptions::default(),
+            mode,
+            tuning: Tuning::Centre,
+            audio_rate: AmConfig::DEFAULT_AUDIO_RATE,
+            bandwidth_hz: None,
+            audio,
+            report: None,
+        }
+    }
+}
+
+/// Runs a request to the end and returns its report (also written to `request.report`).
+///
+/// `progress` is called from the reading thread with the number of samples read so far.
+pub fn run_demod(request: &DemodRequest, progress: &(dyn Fn(u64) + Sync)) -> Result<Report> {
+    let mut source = open_input(&request.input, &request.input_options)?;
+    let offset_hz = resolve_offset(request.tuning, source.as_ref())?;
+    let mut receiver = build_receiver(request, source.info().sample_rate, offset_hz)?;
+    let mut sink = open_sink(&request.audio, receiver.as_ref())?;
+    let mut read_so_far = 0u64;
+    let totals = run_stream(
+        |buf| {
+            let n = source.read(buf)?;
+            read_so_far += n as u64;
+            progress(read_so_far);
+            Ok(n)
+        },
+        receiver.as_mut(),
+        |audio| sink.write(audio),
+        RuntimeConfig::default(),
+    )?;
+    sink.finish()?;
+    let report = make_report(
+        request,
+        source.as_ref(),
+        receiver.as_ref(),
+        offset_hz,
+        totals.samples_in,
+        totals.samples_out,
+    );
+    if let Some(path) = &request.report {
+        report.write(path)?;
+    }
+    Ok(report)
+}
+
+/// The carrier's offset from the recording centre for this tuning.
+pub fn resolve_offset(tuning: Tuning, source: &dyn IqSource) -> Result<f64> {
+    match tuning {
+        Tuning::Centre => Ok(0.0),
+        Tuning::Offset(offset) => Ok(offset),
+        Tuning::Carrier(carrier) => match source.info().centre_frequency {
+            Some(centre) => Ok(carrier - centre),
+            None => Err(Error::file(
+                &source.info().path,
+                "the recording has no centre frequency (core:frequency); use --offset instead of --carrier",
+            )),
+        },
+    }
+}
+
+/// The receiver for the request's mode.
+pub fn build_receiver(
+    request: &DemodRequest,
+    input_rate: f64,
+    offset_hz: f64,
+) -> Result<Box<dyn Receiver>> {
+    match request.mode {
+        Mode::Am => {
+            let config = AmConfig {
+                input_rate,
+                offset_hz,
+                bandwidth_hz: request
+                    .bandwidth_hz
+                    .unwrap_or(AmConfig::DEFAULT_BANDWIDTH_HZ),
+                audio_rate: request.audio_rate,
+            };
+            Ok(Box::new(AmReceiver::new(config)?))
+        }
+        other => Err(Error::NotYetAvailable {
+            what: format!("mode '{other}'"),
+        }),
+    }
+}
+
+fn open_sink(target: &AudioTarget, receiver: &dyn Receiver) -> Result<Box<dyn AudioSink>> {
+    Ok(match target {
+        AudioTarget::Wav { path, pcm16 } => {
+            let rate = receiver.audio_rate().round() as u32;
+            let channels = receiver.audio_channels() as u16;
+            Box::new(WavAudioSink::create(path, rate, channels, *pcm16)?)
+        }
+        AudioTarget::Stdout => Box::new(RawAudioSink::stdout()),
+    })
+}
+
+fn make_report(
+    request: &DemodRequest,
+    source: &dyn IqSource,
+    receiver: &dyn Receiver,
+    offset_hz: f64,
+    samples_in: u64,
+    samples_out: u64,
+) -> Report {
+    let measured = receiver.measurements();
+    let mut warnings = source.warnings();
+    warnings.extend(measured.warnings);
+    let channels = receiver.audio_channels().max(1);
+    Report {
+        mode: request.mode.name().to_string(),
+        emission: request.mode.emission().to_string(),
+        input: display_path(&request.input),
+        input_rate: source.info().sample_rate,
+        audio_rate: receiver.audio_rate(),
+        bandwidth_hz: request
+            .bandwidth_hz
+            .unwrap_or(AmConfig::DEFAULT_BANDWIDTH_HZ),
+        tuned_offset_hz: offset_hz,
+        samples_in,
+        samples_out: samples_out / channels as u64,
+        audio_channels: channels,
+        carrier_offset_hz: measured.carrier_offset_hz,
+        locked: measured.locked,
+        cnr_db: measured.cnr_db,
+        modulation_depth: measured.modulation_depth,
+        warnings,
+    }
+}
+
+fn display_path(path: &Path) -> String {
+    path.display().to_string()
+}
