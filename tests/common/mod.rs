@@ -1,0 +1,72 @@
+//! Shared helpers for the integration tests.
+#![allow(dead_code)]
+
+use amrx::io::{SampleFormat, SigmfWriter};
+use amrx::synth::{AmToneTransmitter, ComplexNoise};
+use amrx::Complex32;
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+/// A fresh, empty folder for one test, under the system's temp folder.
+pub fn scratch_dir(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("amrx-test-{}-{name}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).expect("temp folder is writable");
+    dir
+}
+
+/// Tone-modulated full-carrier AM with optional noise of power `noise_power`.
+pub fn tone_am(
+    rate: f64,
+    offset_hz: f64,
+    mu: f64,
+    tone_hz: f64,
+    seconds: f64,
+    noise_power: f64,
+) -> Vec<Complex32> {
+    let mut tx = AmToneTransmitter::new(0.25, mu, tone_hz, offset_hz, rate).expect("valid AM");
+    let mut samples = vec![Complex32::default(); (rate * seconds) as usize];
+    tx.fill(&mut samples);
+    if noise_power > 0.0 {
+        ComplexNoise::new(noise_power, 7).add_to(&mut samples);
+    }
+    samples
+}
+
+/// Writes `samples` as a SigMF recording `dir/name` in `format`; returns the meta path.
+pub fn write_sigmf(
+    dir: &Path,
+    name: &str,
+    format: SampleFormat,
+    rate: f64,
+    samples: &[Complex32],
+) -> PathBuf {
+    let base = dir.join(name);
+    let mut writer = SigmfWriter::create(&base, format, rate, Some(10_000_000.0), "amrx test")
+        .expect("create recording");
+    writer.write(samples).expect("write samples");
+    writer.finish().expect("finish recording");
+    base.with_extension("sigmf-meta")
+}
+
+/// Runs the `amrx` binary with `args`.
+pub fn amrx(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_amrx"))
+        .args(args)
+        .output()
+        .expect("the amrx binary runs")
+}
+
+/// Reads a mono WAV written by amrx as f32.
+pub fn read_wav(path: &Path) -> (Vec<f32>, u32) {
+    let reader = hound::WavReader::open(path).expect("readable WAV");
+    let rate = reader.spec().sample_rate;
+    let samples = match reader.spec().sample_format {
+        hound::SampleFormat::Float => reader.into_samples::<f32>().map(|s| s.unwrap()).collect(),
+        hound::SampleFormat::Int => reader
+            .into_samples::<i32>()
+            .map(|s| s.unwrap() as f32 / 32768.0)
+            .collect(),
+    };
+    (samples, rate)
+}
