@@ -33,7 +33,10 @@ fn main() -> Result<(), amrx::Error> {
         station.fill(iq);
         noise.add_to(iq);
         let (consumed, produced) = receiver.process(iq, &mut audio_piece);
-        assert_eq!(consumed, burst_len, "output buffer sized by max_output_len takes a whole burst");
+        assert_eq!(
+            consumed, burst_len,
+            "output buffer sized by max_output_len takes a whole burst"
+        );
         audio.extend_from_slice(&audio_piece[..produced]);
         sent += burst_len;
         burst_len = 1_000 + (burst_len * 7919) % (largest_burst - 1_000);
@@ -43,7 +46,13 @@ fn main() -> Result<(), amrx::Error> {
     let tone = estimate_tone_hz(settled, 48_000.0).unwrap_or(f64::NAN);
     let sinad = sinad_db(settled, 48_000.0, tone).unwrap_or(f64::NAN);
     let m = receiver.measurements();
-    println!("pushed {sent} IQ samples in bursts, pulled {} audio samples", audio.len());
-    println!("tone {tone:.2} Hz, SINAD {sinad:.1} dB, CNR {:.1} dB", m.cnr_db.unwrap_or(f64::NAN));
+    println!(
+        "pushed {sent} IQ samples in bursts, pulled {} audio samples",
+        audio.len()
+    );
+    println!(
+        "tone {tone:.2} Hz, SINAD {sinad:.1} dB, CNR {:.1} dB",
+        m.cnr_db.unwrap_or(f64::NAN)
+    );
     Ok(())
 }

@@ -31,7 +31,10 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     Box::new(sink).finish()?;
 
     let m = receiver.measurements();
-    println!("{} IQ samples in, {} audio samples out", totals.samples_in, totals.samples_out);
+    println!(
+        "{} IQ samples in, {} audio samples out",
+        totals.samples_in, totals.samples_out
+    );
     if let Some(f) = m.carrier_offset_hz {
         println!("carrier at {f:.1} Hz from the centre");
     }
@@ -39,7 +42,11 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         println!("CNR {cnr:.1} dB");
     }
     if let Some(d) = m.modulation_depth {
-        println!("modulation +{:.0} % / -{:.0} %", 100.0 * d.positive, 100.0 * d.negative);
+        println!(
+            "modulation +{:.0} % / -{:.0} %",
+            100.0 * d.positive,
+            100.0 * d.negative
+        );
     }
     for w in m.warnings {
         println!("warning: {w}");

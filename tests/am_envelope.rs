@@ -4,9 +4,9 @@ mod common;
 
 use amrx::block::{process_in_chunks, process_to_vec};
 use amrx::demod::{AmConfig, AmReceiver, Receiver};
+use amrx::io::SampleFormat;
 use amrx::measure::{estimate_tone_hz, sinad_db};
 use amrx::synth::{quantize_cu8, IqImpairment};
-use amrx::io::SampleFormat;
 use amrx::Complex32;
 use common::tone_am;
 
@@ -33,12 +33,23 @@ fn tone_am_is_recovered_with_high_sinad_and_correct_depth() {
         let (audio, rx) = receive(&samples, -250_000.0);
         let audio = settled(&audio, 48_000.0);
         let f = estimate_tone_hz(audio, 48_000.0).unwrap();
-        assert!((f - tone).abs() < 0.5, "mu {mu}: tone {f} Hz, expected {tone}");
+        assert!(
+            (f - tone).abs() < 0.5,
+            "mu {mu}: tone {f} Hz, expected {tone}"
+        );
         let sinad = sinad_db(audio, 48_000.0, f).unwrap();
         assert!(sinad >= 35.0, "mu {mu}: SINAD {sinad:.1} dB");
         let depth = rx.measurements().modulation_depth.unwrap();
-        assert!((depth.positive - mu).abs() < 0.01, "mu {mu}: positive depth {}", depth.positive);
-        assert!((depth.negative - mu).abs() < 0.01, "mu {mu}: negative depth {}", depth.negative);
+        assert!(
+            (depth.positive - mu).abs() < 0.01,
+            "mu {mu}: positive depth {}",
+            depth.positive
+        );
+        assert!(
+            (depth.negative - mu).abs() < 0.01,
+            "mu {mu}: negative depth {}",
+            depth.negative
+        );
     }
 }
 
@@ -54,7 +65,10 @@ fn measured_carrier_offset_and_cnr() {
     // density N0 = 1e-5 / 2.4e6: 10·log10(0.0625 / (N0·1e4)) = 31.8 dB.
     let expected = 10.0 * (0.0625 / (1e-5 / RATE * 1e4) as f64).log10();
     let cnr = m.cnr_db.unwrap();
-    assert!((cnr - expected).abs() < 1.0, "CNR {cnr:.2} dB, expected {expected:.2}");
+    assert!(
+        (cnr - expected).abs() < 1.0,
+        "CNR {cnr:.2} dB, expected {expected:.2}"
+    );
     assert_eq!(m.locked, None, "the envelope detector has no loop");
 }
 
@@ -64,7 +78,11 @@ fn overmodulation_is_reported() {
     let (_, rx) = receive(&samples, 50_000.0);
     let m = rx.measurements();
     assert!(m.modulation_depth.unwrap().negative >= 0.99);
-    assert!(m.warnings.iter().any(|w| w.contains("overmodulation")), "{:?}", m.warnings);
+    assert!(
+        m.warnings.iter().any(|w| w.contains("overmodulation")),
+        "{:?}",
+        m.warnings
+    );
 }
 
 #[test]
@@ -79,27 +97,49 @@ fn clean_modulation_gives_no_warning() {
 #[test]
 fn cheap_hardware_input_still_gives_clean_audio() {
     let mut samples = tone_am(RATE, 180_000.0, 0.5, 1000.0, 1.0, 1e-6);
-    IqImpairment { dc: Complex32::new(0.03, -0.02), gain_db: 0.5, phase_deg: 2.0 }.apply(&mut samples);
+    IqImpairment {
+        dc: Complex32::new(0.03, -0.02),
+        gain_db: 0.5,
+        phase_deg: 2.0,
+    }
+    .apply(&mut samples);
     let mut bytes = Vec::new();
     quantize_cu8(&samples, &mut bytes);
-    let decoded: Vec<Complex32> = bytes.chunks_exact(2).map(|b| SampleFormat::Cu8.decode(b)).collect();
+    let decoded: Vec<Complex32> = bytes
+        .chunks_exact(2)
+        .map(|b| SampleFormat::Cu8.decode(b))
+        .collect();
     let (audio, rx) = receive(&decoded, 180_000.0);
     let audio = settled(&audio, 48_000.0);
     let sinad = sinad_db(audio, 48_000.0, 1000.0).unwrap();
-    assert!(sinad >= 35.0, "SINAD {sinad:.1} dB from cu8 with DC and IQ imbalance");
+    assert!(
+        sinad >= 35.0,
+        "SINAD {sinad:.1} dB from cu8 with DC and IQ imbalance"
+    );
     let depth = rx.measurements().modulation_depth.unwrap();
-    assert!((depth.positive - 0.5).abs() < 0.02 && (depth.negative - 0.5).abs() < 0.02, "{depth:?}");
+    assert!(
+        (depth.positive - 0.5).abs() < 0.02 && (depth.negative - 0.5).abs() < 0.02,
+        "{depth:?}"
+    );
 }
 
 /// A carrier near the centre, with the DC spike inside the channel.
 #[test]
 fn dc_spike_inside_the_channel_is_removed() {
     let mut samples = tone_am(RATE, 3_000.0, 0.5, 400.0, 1.0, 1e-7);
-    IqImpairment { dc: Complex32::new(0.05, 0.05), gain_db: 0.0, phase_deg: 0.0 }.apply(&mut samples);
+    IqImpairment {
+        dc: Complex32::new(0.05, 0.05),
+        gain_db: 0.0,
+        phase_deg: 0.0,
+    }
+    .apply(&mut samples);
     let (audio, _) = receive(&samples, 3_000.0);
     let audio = settled(&audio, 48_000.0);
     let sinad = sinad_db(audio, 48_000.0, 400.0).unwrap();
-    assert!(sinad >= 30.0, "SINAD {sinad:.1} dB with a DC spike 3 kHz from the carrier");
+    assert!(
+        sinad >= 30.0,
+        "SINAD {sinad:.1} dB with a DC spike 3 kHz from the carrier"
+    );
 }
 
 /// The whole receiver's output does not depend on how its input was chunked. Tolerance zero:
@@ -108,25 +148,43 @@ fn dc_spike_inside_the_channel_is_removed() {
 fn receiver_output_is_chunk_invariant() {
     let samples = tone_am(RATE, -75_000.0, 0.6, 700.0, 0.1, 1e-6);
     let (whole, _) = receive(&samples, -75_000.0);
-    for sizes in [vec![1usize, 7, 1024], vec![8192], vec![10_007, 3, 65_536], vec![100_000]] {
+    for sizes in [
+        vec![1usize, 7, 1024],
+        vec![8192],
+        vec![10_007, 3, 65_536],
+        vec![100_000],
+    ] {
         let mut rx = AmReceiver::new(AmConfig::new(RATE, -75_000.0)).unwrap();
         let pieces = process_in_chunks(&mut rx, &samples, &sizes);
         assert_eq!(pieces.len(), whole.len(), "sizes {sizes:?}");
-        let worst = pieces.iter().zip(&whole).map(|(a, b)| (a - b).abs()).fold(0.0f32, f32::max);
+        let worst = pieces
+            .iter()
+            .zip(&whole)
+            .map(|(a, b)| (a - b).abs())
+            .fold(0.0f32, f32::max);
         assert!(worst <= 1e-6, "sizes {sizes:?}: worst difference {worst}");
     }
 }
 
 #[test]
 fn other_rates_and_audio_rates() {
-    for (rate, audio_rate) in [(2_048_000.0, 48_000.0), (250_000.0, 48_000.0), (1_920_000.0, 48_000.0), (2_400_000.0, 44_100.0)] {
+    for (rate, audio_rate) in [
+        (2_048_000.0, 48_000.0),
+        (250_000.0, 48_000.0),
+        (1_920_000.0, 48_000.0),
+        (2_400_000.0, 44_100.0),
+    ] {
         let samples = tone_am(rate, 30_000.0, 0.5, 1000.0, 0.8, 1e-7);
         let mut config = AmConfig::new(rate, 30_000.0);
         config.audio_rate = audio_rate;
         let mut rx = AmReceiver::new(config).unwrap();
         let audio = process_to_vec(&mut rx, &samples);
         let expected = samples.len() as f64 * audio_rate / rate;
-        assert!((audio.len() as f64 - expected).abs() < 2.0, "{rate} → {audio_rate}: {} samples", audio.len());
+        assert!(
+            (audio.len() as f64 - expected).abs() < 2.0,
+            "{rate} → {audio_rate}: {} samples",
+            audio.len()
+        );
         let audio = settled(&audio, audio_rate);
         let f = estimate_tone_hz(audio, audio_rate).unwrap();
         assert!((f - 1000.0).abs() < 0.5, "{rate} → {audio_rate}: tone {f}");

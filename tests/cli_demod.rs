@@ -12,12 +12,18 @@ const RATE: f64 = 960_000.0;
 
 fn recording(dir: &std::path::Path) -> String {
     let samples = tone_am(RATE, -25_000.0, 0.6, 1000.0, 0.8, 1e-6);
-    write_sigmf(dir, "station", SampleFormat::Cu8, RATE, &samples).display().to_string()
+    write_sigmf(dir, "station", SampleFormat::Cu8, RATE, &samples)
+        .display()
+        .to_string()
 }
 
 fn ok(args: &[&str]) -> std::process::Output {
     let out = amrx(args);
-    assert!(out.status.success(), "{args:?}: {}", String::from_utf8_lossy(&out.stderr));
+    assert!(
+        out.status.success(),
+        "{args:?}: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     out
 }
 
@@ -27,13 +33,28 @@ fn demod_writes_audio_and_a_complete_report() {
     let rec = recording(&dir);
     let wav = dir.join("a.wav").display().to_string();
     let report = dir.join("a.json").display().to_string();
-    ok(&["demod", &rec, "--mode", "am", "--offset", "-25000", "--out", &wav, "--report", &report, "--quiet"]);
+    ok(&[
+        "demod", &rec, "--mode", "am", "--offset", "-25000", "--out", &wav, "--report", &report,
+        "--quiet",
+    ]);
     let (audio, rate) = read_wav(std::path::Path::new(&wav));
     assert_eq!(rate, 48_000);
     let tone = estimate_tone_hz(&audio[9600..], 48_000.0).unwrap();
     assert!((tone - 1000.0).abs() < 0.5, "tone {tone}");
-    let json: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(&report).unwrap()).unwrap();
-    for key in ["mode", "input_rate", "audio_rate", "samples_in", "samples_out", "carrier_offset_hz", "locked", "cnr_db", "modulation_depth", "warnings"] {
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&report).unwrap()).unwrap();
+    for key in [
+        "mode",
+        "input_rate",
+        "audio_rate",
+        "samples_in",
+        "samples_out",
+        "carrier_offset_hz",
+        "locked",
+        "cnr_db",
+        "modulation_depth",
+        "warnings",
+    ] {
         assert!(json.get(key).is_some(), "report lacks {key}: {json}");
     }
     assert_eq!(json["mode"], "am");
@@ -43,8 +64,14 @@ fn demod_writes_audio_and_a_complete_report() {
     assert!(json["locked"].is_null());
     assert!((json["carrier_offset_hz"].as_f64().unwrap() + 25_000.0).abs() < 2.0);
     let depth = &json["modulation_depth"];
-    assert!((depth["positive"].as_f64().unwrap() - 0.6).abs() < 0.02, "{depth}");
-    assert!((depth["negative"].as_f64().unwrap() - 0.6).abs() < 0.02, "{depth}");
+    assert!(
+        (depth["positive"].as_f64().unwrap() - 0.6).abs() < 0.02,
+        "{depth}"
+    );
+    assert!(
+        (depth["negative"].as_f64().unwrap() - 0.6).abs() < 0.02,
+        "{depth}"
+    );
 }
 
 #[test]
@@ -54,9 +81,24 @@ fn carrier_option_uses_the_recording_centre() {
     let wav = dir.join("c.wav").display().to_string();
     let report = dir.join("c.json").display().to_string();
     // write_sigmf records a centre of 10 MHz, so the carrier is at 9.975 MHz.
-    ok(&["demod", &rec, "--mode", "am", "--carrier", "9975000", "--out", &wav, "--report", &report]);
-    let json: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(&report).unwrap()).unwrap();
-    assert!((json["carrier_offset_hz"].as_f64().unwrap() + 25_000.0).abs() < 2.0, "{json}");
+    ok(&[
+        "demod",
+        &rec,
+        "--mode",
+        "am",
+        "--carrier",
+        "9975000",
+        "--out",
+        &wav,
+        "--report",
+        &report,
+    ]);
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&report).unwrap()).unwrap();
+    assert!(
+        (json["carrier_offset_hz"].as_f64().unwrap() + 25_000.0).abs() < 2.0,
+        "{json}"
+    );
 }
 
 #[test]
@@ -64,7 +106,19 @@ fn pcm16_output_and_44k1_audio() {
     let dir = scratch_dir("cli-pcm16");
     let rec = recording(&dir);
     let wav = dir.join("p.wav");
-    ok(&["demod", &rec, "--mode", "am", "--offset", "-25000", "--audio-rate", "44100", "--pcm16", "--out", &wav.display().to_string()]);
+    ok(&[
+        "demod",
+        &rec,
+        "--mode",
+        "am",
+        "--offset",
+        "-25000",
+        "--audio-rate",
+        "44100",
+        "--pcm16",
+        "--out",
+        &wav.display().to_string(),
+    ]);
     let reader = hound::WavReader::open(&wav).unwrap();
     assert_eq!(reader.spec().bits_per_sample, 16);
     assert_eq!(reader.spec().sample_rate, 44_100);
@@ -81,7 +135,10 @@ fn raw_standard_input_to_raw_standard_output() {
         SampleFormat::Ci16Le.encode(*s, b);
     }
     let mut child = Command::new(env!("CARGO_BIN_EXE_amrx"))
-        .args(["demod", "-", "--format", "ci16_le", "--rate", "960000", "--mode", "am", "--offset", "40000", "--out", "-"])
+        .args([
+            "demod", "-", "--format", "ci16_le", "--rate", "960000", "--mode", "am", "--offset",
+            "40000", "--out", "-",
+        ])
         .stdin(Stdio::piped())
         .stdout(Stdio::piped())
         .stderr(Stdio::piped())
@@ -91,8 +148,16 @@ fn raw_standard_input_to_raw_standard_output() {
     let writer = std::thread::spawn(move || stdin.write_all(&bytes));
     let out = child.wait_with_output().unwrap();
     writer.join().unwrap().unwrap();
-    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
-    let audio: Vec<f32> = out.stdout.chunks_exact(4).map(|b| f32::from_le_bytes([b[0], b[1], b[2], b[3]])).collect();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let audio: Vec<f32> = out
+        .stdout
+        .chunks_exact(4)
+        .map(|b| f32::from_le_bytes([b[0], b[1], b[2], b[3]]))
+        .collect();
     assert_eq!(audio.len(), 24_000);
     let tone = estimate_tone_hz(&audio[9600..], 48_000.0).unwrap();
     assert!((tone - 1000.0).abs() < 0.5, "tone {tone}");
@@ -114,7 +179,12 @@ fn iq_wav_input() {
     let dir = scratch_dir("cli-wav");
     let samples = tone_am(192_000.0, 30_000.0, 0.5, 1000.0, 0.6, 1e-6);
     let path = dir.join("iq.wav");
-    let spec = hound::WavSpec { channels: 2, sample_rate: 192_000, bits_per_sample: 32, sample_format: hound::SampleFormat::Float };
+    let spec = hound::WavSpec {
+        channels: 2,
+        sample_rate: 192_000,
+        bits_per_sample: 32,
+        sample_format: hound::SampleFormat::Float,
+    };
     let mut w = hound::WavWriter::create(&path, spec).unwrap();
     for s in &samples {
         w.write_sample(s.re).unwrap();
@@ -122,7 +192,16 @@ fn iq_wav_input() {
     }
     w.finalize().unwrap();
     let wav = dir.join("out.wav");
-    ok(&["demod", &path.display().to_string(), "--mode", "am", "--offset", "30000", "--out", &wav.display().to_string()]);
+    ok(&[
+        "demod",
+        &path.display().to_string(),
+        "--mode",
+        "am",
+        "--offset",
+        "30000",
+        "--out",
+        &wav.display().to_string(),
+    ]);
     let (audio, _) = read_wav(&wav);
     let sinad = sinad_db(&audio[9600..], 48_000.0, 1000.0).unwrap();
     assert!(sinad > 35.0, "SINAD {sinad}");
@@ -133,7 +212,14 @@ fn demo_runs_and_prints_its_table() {
     let dir = scratch_dir("cli-demo");
     let out = ok(&["demo", &dir.display().to_string()]);
     let text = String::from_utf8_lossy(&out.stdout);
-    for needle in ["AMRX-A", "AMRX-B", "AMRX-C", "AMRX-D", "overmodulation", "not yet available"] {
+    for needle in [
+        "AMRX-A",
+        "AMRX-B",
+        "AMRX-C",
+        "AMRX-D",
+        "overmodulation",
+        "not yet available",
+    ] {
         assert!(text.contains(needle), "'{needle}' missing from:\n{text}");
     }
     assert!(dir.join("demo-scene.sigmf-meta").exists());

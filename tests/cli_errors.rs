@@ -12,12 +12,23 @@ use std::path::Path;
 fn assert_one_line_error(args: &[&str], needles: &[&str]) {
     let out = amrx(args);
     let stderr = String::from_utf8_lossy(&out.stderr);
-    assert!(!out.status.success(), "expected failure for {args:?}; stderr: {stderr}");
+    assert!(
+        !out.status.success(),
+        "expected failure for {args:?}; stderr: {stderr}"
+    );
     assert!(!stderr.contains("panicked"), "panic for {args:?}: {stderr}");
     let lines: Vec<&str> = stderr.lines().filter(|l| !l.trim().is_empty()).collect();
-    assert_eq!(lines.len(), 1, "expected one line for {args:?}, got: {stderr}");
+    assert_eq!(
+        lines.len(),
+        1,
+        "expected one line for {args:?}, got: {stderr}"
+    );
     for needle in needles {
-        assert!(lines[0].contains(needle), "'{needle}' missing from: {}", lines[0]);
+        assert!(
+            lines[0].contains(needle),
+            "'{needle}' missing from: {}",
+            lines[0]
+        );
     }
 }
 
@@ -47,7 +58,10 @@ fn empty_data_file() {
     let dir = scratch_dir("empty");
     let meta = write_sigmf(&dir, "empty", SampleFormat::Cu8, 240_000.0, &[]);
     let meta = meta.display().to_string();
-    assert_one_line_error(&["demod", &meta, "--mode", "am", "--out", &out_wav(&dir)], &["empty"]);
+    assert_one_line_error(
+        &["demod", &meta, "--mode", "am", "--out", &out_wav(&dir)],
+        &["empty"],
+    );
 }
 
 #[test]
@@ -57,7 +71,9 @@ fn empty_raw_file() {
     std::fs::write(&raw, b"").unwrap();
     let raw = raw.display().to_string();
     let out = out_wav(&dir);
-    let args = ["demod", &raw, "--format", "cu8", "--rate", "240000", "--mode", "am", "--out", &out];
+    let args = [
+        "demod", &raw, "--format", "cu8", "--rate", "240000", "--mode", "am", "--out", &out,
+    ];
     assert_one_line_error(&args, &["empty.cu8"]);
 }
 
@@ -68,7 +84,14 @@ fn meta_case(name: &str, meta_text: &str, extra: &[&str], needles: &[&str]) {
     std::fs::write(dir.join(format!("{name}.sigmf-data")), [128u8; 4000]).unwrap();
     let meta = meta.display().to_string();
     let out = out_wav(&dir);
-    let mut args = vec!["demod", meta.as_str(), "--mode", "am", "--out", out.as_str()];
+    let mut args = vec![
+        "demod",
+        meta.as_str(),
+        "--mode",
+        "am",
+        "--out",
+        out.as_str(),
+    ];
     args.extend_from_slice(extra);
     let mut all = vec![name];
     all.extend_from_slice(needles);
@@ -100,13 +123,32 @@ fn missing_sample_rate_is_supplied_by_rate_option() {
     let text = r#"{"global":{"core:datatype":"cu8","core:version":"1.2.0"},"captures":[{"core:sample_start":0}],"annotations":[]}"#;
     std::fs::write(&meta, text).unwrap();
     std::fs::write(dir.join("rate-given.sigmf-data"), [128u8; 48_000]).unwrap();
-    let out = amrx(&["demod", &meta.display().to_string(), "--rate", "240000", "--mode", "am", "--out", &out_wav(&dir), "--quiet"]);
-    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    let out = amrx(&[
+        "demod",
+        &meta.display().to_string(),
+        "--rate",
+        "240000",
+        "--mode",
+        "am",
+        "--out",
+        &out_wav(&dir),
+        "--quiet",
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
 }
 
 #[test]
 fn metadata_that_is_not_json() {
-    meta_case("not-json", "{\"global\": {\"core:datatype\": \"cu8\",, }", &[], &["JSON"]);
+    meta_case(
+        "not-json",
+        "{\"global\": {\"core:datatype\": \"cu8\",, }",
+        &[],
+        &["JSON"],
+    );
 }
 
 #[test]
@@ -118,8 +160,14 @@ fn data_size_not_whole_samples_is_a_warning_with_the_byte_count() {
     std::fs::write(dir.join("ragged.sigmf-data"), vec![0u8; 4 * 24_000 + 3]).unwrap();
     let report = dir.join("r.json");
     let out = amrx(&[
-        "demod", &meta.display().to_string(), "--mode", "am", "--out", &out_wav(&dir),
-        "--report", &report.display().to_string(),
+        "demod",
+        &meta.display().to_string(),
+        "--mode",
+        "am",
+        "--out",
+        &out_wav(&dir),
+        "--report",
+        &report.display().to_string(),
     ]);
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert!(out.status.success(), "{stderr}");
@@ -133,7 +181,16 @@ fn offset_outside_nyquist() {
     let dir = scratch_dir("offset");
     let rec = good_recording(&dir);
     assert_one_line_error(
-        &["demod", &rec, "--mode", "am", "--offset", "-130000", "--out", &out_wav(&dir)],
+        &[
+            "demod",
+            &rec,
+            "--mode",
+            "am",
+            "--offset",
+            "-130000",
+            "--out",
+            &out_wav(&dir),
+        ],
         &["good.sigmf-meta", "--offset", "-130000"],
     );
 }
@@ -143,7 +200,18 @@ fn bandwidth_impossible_for_audio_rate() {
     let dir = scratch_dir("bandwidth");
     let rec = good_recording(&dir);
     assert_one_line_error(
-        &["demod", &rec, "--mode", "am", "--offset", "20000", "--bandwidth", "30000", "--out", &out_wav(&dir)],
+        &[
+            "demod",
+            &rec,
+            "--mode",
+            "am",
+            "--offset",
+            "20000",
+            "--bandwidth",
+            "30000",
+            "--out",
+            &out_wav(&dir),
+        ],
         &["good.sigmf-meta", "--bandwidth"],
     );
 }
@@ -153,7 +221,16 @@ fn audio_rate_impossible() {
     let dir = scratch_dir("audio-rate");
     let rec = good_recording(&dir);
     assert_one_line_error(
-        &["demod", &rec, "--mode", "am", "--audio-rate", "0", "--out", &out_wav(&dir)],
+        &[
+            "demod",
+            &rec,
+            "--mode",
+            "am",
+            "--audio-rate",
+            "0",
+            "--out",
+            &out_wav(&dir),
+        ],
         &["good.sigmf-meta", "--audio-rate"],
     );
 }
@@ -162,14 +239,26 @@ fn audio_rate_impossible() {
 fn one_channel_wav_as_iq() {
     let dir = scratch_dir("mono-wav");
     let path = dir.join("mono.wav");
-    let spec = hound::WavSpec { channels: 1, sample_rate: 48_000, bits_per_sample: 16, sample_format: hound::SampleFormat::Int };
+    let spec = hound::WavSpec {
+        channels: 1,
+        sample_rate: 48_000,
+        bits_per_sample: 16,
+        sample_format: hound::SampleFormat::Int,
+    };
     let mut w = hound::WavWriter::create(&path, spec).unwrap();
     for i in 0..4800 {
         w.write_sample((i % 100) as i16).unwrap();
     }
     w.finalize().unwrap();
     assert_one_line_error(
-        &["demod", &path.display().to_string(), "--mode", "am", "--out", &out_wav(&dir)],
+        &[
+            "demod",
+            &path.display().to_string(),
+            "--mode",
+            "am",
+            "--out",
+            &out_wav(&dir),
+        ],
         &["mono.wav", "channel"],
     );
 }
@@ -184,10 +273,22 @@ fn non_finite_samples_are_counted_and_never_reach_the_wav() {
     let bad = samples.iter().filter(|s| !s.re.is_finite()).count();
     let rec = write_sigmf(&dir, "nan", SampleFormat::Cf32Le, 240_000.0, &samples);
     let wav = dir.join("nan.wav");
-    let out = amrx(&["demod", &rec.display().to_string(), "--mode", "am", "--offset", "20000", "--out", &wav.display().to_string()]);
+    let out = amrx(&[
+        "demod",
+        &rec.display().to_string(),
+        "--mode",
+        "am",
+        "--offset",
+        "20000",
+        "--out",
+        &wav.display().to_string(),
+    ]);
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert!(out.status.success(), "{stderr}");
-    assert!(stderr.contains(&bad.to_string()) && stderr.contains("non-finite"), "{stderr}");
+    assert!(
+        stderr.contains(&bad.to_string()) && stderr.contains("non-finite"),
+        "{stderr}"
+    );
     let (audio, _) = common::read_wav(&wav);
     assert!(!audio.is_empty() && audio.iter().all(|x| x.is_finite()));
 }
@@ -196,15 +297,27 @@ fn non_finite_samples_are_counted_and_never_reach_the_wav() {
 fn output_path_that_cannot_be_written() {
     let dir = scratch_dir("unwritable");
     let rec = good_recording(&dir);
-    let bad = dir.join("no-such-folder").join("out.wav").display().to_string();
-    assert_one_line_error(&["demod", &rec, "--mode", "am", "--offset", "20000", "--out", &bad], &["no-such-folder"]);
+    let bad = dir
+        .join("no-such-folder")
+        .join("out.wav")
+        .display()
+        .to_string();
+    assert_one_line_error(
+        &[
+            "demod", &rec, "--mode", "am", "--offset", "20000", "--out", &bad,
+        ],
+        &["no-such-folder"],
+    );
 }
 
 #[test]
 fn reserved_mode_is_not_yet_available() {
     let dir = scratch_dir("reserved");
     let rec = good_recording(&dir);
-    assert_one_line_error(&["demod", &rec, "--mode", "vsb", "--out", &out_wav(&dir)], &["not yet available", "vsb"]);
+    assert_one_line_error(
+        &["demod", &rec, "--mode", "vsb", "--out", &out_wav(&dir)],
+        &["not yet available", "vsb"],
+    );
 }
 
 #[test]
@@ -212,7 +325,16 @@ fn sideband_option_on_a_mode_without_one() {
     let dir = scratch_dir("sideband");
     let rec = good_recording(&dir);
     assert_one_line_error(
-        &["demod", &rec, "--mode", "am", "--sideband", "upper", "--out", &out_wav(&dir)],
+        &[
+            "demod",
+            &rec,
+            "--mode",
+            "am",
+            "--sideband",
+            "upper",
+            "--out",
+            &out_wav(&dir),
+        ],
         &["--sideband"],
     );
 }
@@ -223,7 +345,14 @@ fn raw_input_without_format() {
     let raw = dir.join("capture.bin");
     std::fs::write(&raw, [128u8; 1000]).unwrap();
     assert_one_line_error(
-        &["demod", &raw.display().to_string(), "--mode", "am", "--out", &out_wav(&dir)],
+        &[
+            "demod",
+            &raw.display().to_string(),
+            "--mode",
+            "am",
+            "--out",
+            &out_wav(&dir),
+        ],
         &["capture.bin", "--format"],
     );
 }
