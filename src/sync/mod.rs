@@ -1,7 +1,9 @@
-//! Carrier recovery: second-order loop design and phase-locked loops.
+//! Carrier recovery: second-order loop design, a carrier PLL and a Costas loop.
 
+pub mod costas;
 pub mod loop_filter;
 pub mod pll;
 
+pub use costas::CostasLoop;
 pub use loop_filter::LoopGains;
 pub use pll::{CarrierPll, PllConfig};
