@@ -12,7 +12,7 @@ use crate::block::Block;
 use crate::sample::Sample;
 use crate::{Error, Result};
 
-/// y[n] = x[n] − x[n−1] + a·y[n−1], with the −3 dB corner at `cutoff_hz`.
+/// `y[n] = x[n] − x[n−1] + a·y[n−1]`, with the −3 dB corner at `cutoff_hz`.
 /// Non-finite inputs are treated as zero so that they cannot poison the state.
 #[derive(Debug, Clone)]
 pub struct DcBlocker<T: Sample> {

@@ -1,7 +1,7 @@
 //! Polyphase decimating FIR: filters and keeps one sample in `factor`, computing only those.
 //!
-//! Output m is y[m] = Σ h[k]·x[mM − k] with zeroed history before x[0], the same alignment as
-//! `scipy.signal.upfirdn(h, x, 1, M)`: the first output is h[0]·x[0]. Each kept output is one
+//! Output m is `y[m] = Σ h[k]·x[mM − k]` with zeroed history before `x[0]`, the same alignment
+//! as `scipy.signal.upfirdn(h, x, 1, M)`: the first output is `h[0]·x[0]`. Each kept output is one
 //! contiguous dot product over the history window (the polyphase cost of N/M multiplies per
 //! input, with a SIMD-friendly inner loop).
 

@@ -10,7 +10,7 @@ use crate::{Error, Result};
 /// New samples taken per history refill (the history holds taps − 1 + this).
 const CHUNK: usize = 2048;
 
-/// An FIR filter, one output per input: y[n] = Σ h[k]·x[n−k], starting from zeroed history.
+/// An FIR filter, one output per input: `y[n] = Σ h[k]·x[n−k]`, starting from zeroed history.
 /// Non-finite input samples are treated as zero.
 #[derive(Debug, Clone)]
 pub struct Fir<T: Sample> {

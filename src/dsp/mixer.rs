@@ -2,7 +2,7 @@
 //!
 //! Design: a table of e^{j2πfk/fs} for k in 0..1024, computed in f64 and rounded once, and for
 //! each 1024-sample block a start phasor e^{j2πφ} computed from an f64 phase φ (in cycles,
-//! wrapped to [0, 1)). The block's rotations start·table[k] are formed once per block, so the
+//! wrapped to [0, 1)). The block's rotations `start·table[k]` are formed once per block, so the
 //! per-sample work is one complex multiply that vectorises, and the phase never drifts: each
 //! block restarts from the f64 phase, whose rounding error is ~1e-16 cycles per block.
 //!
@@ -18,7 +18,7 @@ use std::f64::consts::TAU;
 /// Samples per table block.
 const TABLE_LEN: usize = 1024;
 
-/// Shifts the spectrum by `frequency_hz`: y[n] = x[n]·e^{j2π f n / fs}. To tune a carrier at
+/// Shifts the spectrum by `frequency_hz`: `y[n] = x[n]·e^{j2π f n / fs}`. To tune a carrier at
 /// offset f₀ down to 0 Hz, use `-f₀`. Non-finite input samples give zero output.
 #[derive(Debug, Clone)]
 pub struct Mixer {

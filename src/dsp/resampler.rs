@@ -1,9 +1,9 @@
 //! Rational polyphase resampler by up/down (e.g. 48 kHz to 44.1 kHz is 147/160).
 //!
-//! Output m is y[m] = L·Σ h[k]·u[mM − k] where u is x up-sampled by L with zeros, i.e.
-//! `scipy.signal.upfirdn(L·h, x, L, M)` with zeroed history: the first output is L·h[0]·x[0].
+//! Output m is `y[m] = L·Σ h[k]·u[mM − k]` where u is x up-sampled by L with zeros, i.e.
+//! `scipy.signal.upfirdn(L·h, x, L, M)` with zeroed history: the first output is `L·h[0]·x[0]`.
 //! Only the taps that meet non-zero samples are used: with t = mM, phase p = t mod L and
-//! input index i = ⌊t/L⌋, y[m] = L·Σ_j h[p + jL]·x[i − j].
+//! input index i = ⌊t/L⌋, `y[m] = L·Σ_j h[p + jL]·x[i − j]`.
 //! (`scipy.signal.resample_poly` centres the filter instead; with half = (N−1)/2 a multiple of
 //! M its output j equals this block's output j + half/M. The reference test checks both.)
 
