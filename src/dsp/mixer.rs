@@ -7,8 +7,10 @@
 //! block restarts from the f64 phase, whose rounding error is ~1e-16 cycles per block.
 //!
 //! Spurious-free dynamic range: the only error is f32 rounding of the table, start and product
-//! (≈ 1e-7 relative, i.e. spurs near −140 dBc). The unit test measures ≥ 90 dBc (the
-//! requirement) with a Kaiser-windowed FFT; see `sfdr_is_at_least_90_dbc`.
+//! (≈ 1e-7 relative). The unit test `sfdr_is_at_least_90_dbc` mixes a constant 1 + 0j at six
+//! offsets (12345.678 Hz, 599999.99 Hz, ±fs/2, … at 2.4 MS/s), takes a 65536-point FFT with a
+//! Kaiser window (β = 20) and requires ≥ 90 dBc between the tone and the largest other bin;
+//! it measures 165–179 dBc, i.e. the f32 noise floor.
 
 use crate::block::Block;
 use crate::dsp::nco::validate_frequency;

@@ -187,6 +187,14 @@ impl Splitter {
 impl DecimationPlan {
     /// Plans the cascade.
     ///
+    /// ```
+    /// use amrx::dsp::{DecimationPlan, MultiStageDecimator};
+    /// let plan = DecimationPlan::new(2_048_000.0, 48_000.0, 10_000.0, 70.0)?;
+    /// assert_eq!(plan.output_rate, 51_200.0); // then a 15/16 rational step to 48 kS/s
+    /// let block = MultiStageDecimator::<amrx::Complex32>::new(&plan)?;
+    /// # Ok::<(), amrx::Error>(())
+    /// ```
+    ///
     /// Errors when a rate is not positive and finite, when `min_output_rate` exceeds
     /// `input_rate`, when `passband_hz` is not in (0, output_rate/2), or when the attenuation
     /// is not positive and finite.
