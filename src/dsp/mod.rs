@@ -2,20 +2,24 @@
 
 pub mod dc_blocker;
 pub mod decimator;
+mod dot;
 pub mod fir;
 pub mod gain;
+mod history;
 pub mod kaiser;
 pub mod mixer;
 pub mod nco;
 pub mod planner;
 pub mod resampler;
+#[cfg(test)]
+mod test_util;
 
-pub use dc_blocker::DcBlocker;
+pub use dc_blocker::{dc_blocker_pole, DcBlocker};
 pub use decimator::FirDecimator;
-pub use fir::Fir;
+pub use fir::{audio_lowpass, Fir};
 pub use gain::Gain;
 pub use kaiser::{design_lowpass, kaiser_beta, kaiser_num_taps, LowpassSpec};
 pub use mixer::Mixer;
 pub use nco::Nco;
-pub use planner::{rational_ratio, DecimationPlan, MultiStageDecimator};
+pub use planner::{rational_ratio, DecimationPlan, DecimationStage, MultiStageDecimator};
 pub use resampler::RationalResampler;
