@@ -232,7 +232,10 @@ pub(crate) fn no_samples(path: &Path, bytes: u64, frame_bytes: usize) -> Error {
     } else {
         Error::file(
             path,
-            format!("no samples ({bytes} bytes, less than one {frame_bytes}-byte sample)"),
+            format!(
+                "no samples ({bytes} {}, less than one {frame_bytes}-byte sample)",
+                plural(bytes, "byte", "bytes")
+            ),
         )
     }
 }
