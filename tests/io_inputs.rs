@@ -395,6 +395,20 @@ fn open_input_errors() {
         "{err}"
     );
 
+    with_channel.format = Some(SampleFormat::Cu8);
+    with_channel.rate = Some(1.0);
+    let err = open_input(&raw, &with_channel).err().unwrap();
+    assert!(
+        matches!(
+            err,
+            Error::InvalidParameter {
+                name: "--channel",
+                ..
+            }
+        ),
+        "{err}"
+    );
+
     let base = dir.path("rec");
     let mut w = SigmfWriter::create(&base, SampleFormat::Ci16Le, 1e6, None, "").unwrap();
     w.write(&[c(0.5, -0.5)]).unwrap();

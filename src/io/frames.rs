@@ -13,6 +13,10 @@ pub(crate) const READER_CAPACITY: usize = 256 * 1024;
 /// Samples the byte buffer holds before a larger read asks it to grow.
 const INITIAL_SAMPLES: usize = 16 * 1024;
 
+/// The byte buffer never grows beyond this (or one frame, if larger): a read then returns
+/// fewer samples than asked, which the `IqSource` contract allows.
+const MAX_BUFFER_BYTES: usize = 64 * 1024 * 1024;
+
 /// How the bytes of one channel sample turn into a complex value.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub(crate) enum Codec {
@@ -98,7 +102,7 @@ impl FrameReader {
             channels,
             channel,
             frame_bytes,
-            bytes: vec![0; INITIAL_SAMPLES * frame_bytes],
+            bytes: vec![0; (INITIAL_SAMPLES * frame_bytes).clamp(frame_bytes, MAX_BUFFER_BYTES)],
             filled: 0,
             byte_limit,
             at_end: false,
@@ -126,7 +130,8 @@ impl FrameReader {
         if buf.is_empty() || self.at_end {
             return Ok(0);
         }
-        let wanted = buf.len().saturating_mul(self.frame_bytes);
+        let most = (MAX_BUFFER_BYTES / self.frame_bytes).max(1);
+        let wanted = buf.len().min(most) * self.frame_bytes;
         if self.bytes.len() < wanted {
             self.bytes.resize(wanted, 0);
         }
@@ -313,6 +318,18 @@ mod tests {
         assert_eq!(r.read(&mut buf).unwrap(), 2);
         assert_eq!(r.read(&mut buf).unwrap(), 0);
         assert!(r.warnings().is_empty());
+    }
+
+    #[test]
+    fn buffer_stays_bounded_for_wide_frames_and_huge_reads() {
+        // 65536 channels of cf64_le: 1 MiB frames.
+        let codec = Codec::Sigmf(SampleFormat::Cf64Le);
+        let frame = 65536 * 16;
+        let mut r = reader(vec![0; 70 * frame], usize::MAX, codec, 65536, 5);
+        assert!(r.bytes.len() <= MAX_BUFFER_BYTES);
+        let mut buf = vec![Complex32::new(1.0, 1.0); 100];
+        assert_eq!(r.read(&mut buf).unwrap(), MAX_BUFFER_BYTES / frame);
+        assert_eq!(r.bytes.len(), MAX_BUFFER_BYTES);
     }
 
     #[test]

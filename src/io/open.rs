@@ -35,6 +35,13 @@ pub fn open_input(path: &Path, options: &InputOptions) -> Result<Box<dyn IqSourc
         // A missing file is reported before a missing --format.
         std::fs::metadata(path).map_err(|e| Error::io(path, e))?;
     }
+    if options.channel != 0 {
+        return Err(Error::parameter(
+            "--channel",
+            options.channel,
+            "raw input holds one channel (use 0)",
+        ));
+    }
     let Some(format) = options.format else {
         return Err(Error::file(
             path,
