@@ -2,6 +2,7 @@
 
 pub mod audio_out;
 pub mod format;
+mod frames;
 pub mod open;
 pub mod raw;
 pub mod sigmf;
@@ -10,7 +11,9 @@ pub mod wav_iq;
 pub use audio_out::{AudioSink, RawAudioSink, WavAudioSink};
 pub use format::SampleFormat;
 pub use open::{open_input, InputOptions};
+pub use raw::RawSource;
 pub use sigmf::{SigmfAnnotation, SigmfSource, SigmfWriter};
+pub use wav_iq::WavIqSource;
 
 use crate::{Complex32, Result};
 use std::path::PathBuf;

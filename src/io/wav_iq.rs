@@ -1,31 +1,145 @@
-//! Two-channel IQ WAV input (I left, Q right; 16-bit PCM or 32-bit float).
+//! Two-channel IQ WAV input (I left, Q right; 16-bit PCM or 32-bit float, also 8/24/32-bit PCM).
+//!
+//! hound parses the header; the data chunk is then streamed through the same frame reader as
+//! every other source (hound's per-sample iterator would be the bottleneck).
 
-use super::{IqSource, SourceInfo};
-use crate::{Complex32, Result};
+use super::frames::{check_rate_parameter, no_samples, Codec, FrameReader};
+use super::{IqSource, SampleFormat, SourceInfo};
+use crate::{Complex32, Error, Result};
+use std::fs::File;
+use std::io::{BufReader, Read, Seek, SeekFrom};
 use std::path::Path;
 
 /// An IQ WAV file read in pieces.
 pub struct WavIqSource {
     info: SourceInfo,
+    frames: FrameReader,
+    notes: Vec<String>,
 }
 
 impl WavIqSource {
     /// Opens `path`; a file that is not 2-channel is an error.
     pub fn open(path: &Path) -> Result<Self> {
-        let _ = path;
-        todo!()
+        Self::open_with_rate(path, None)
+    }
+
+    /// Opens `path`; an explicit `rate` overrides the header's rate (noted in the warnings).
+    pub fn open_with_rate(path: &Path, rate: Option<f64>) -> Result<Self> {
+        let file = File::open(path).map_err(|e| Error::io(path, e))?;
+        let reader = hound::WavReader::new(BufReader::new(file)).map_err(|e| wav_error(path, e))?;
+        let spec = reader.spec();
+        if spec.channels != 2 {
+            let word = if spec.channels == 1 {
+                "channel"
+            } else {
+                "channels"
+            };
+            return Err(Error::file(
+                path,
+                format!(
+                    "WAV has {} {word}; IQ needs 2 (I left, Q right)",
+                    spec.channels
+                ),
+            ));
+        }
+        let values = u64::from(reader.len());
+        let (file, data_bytes) = data_chunk(path, reader)?;
+        if values == 0 {
+            return Err(no_samples(path, 0, 4));
+        }
+        let container = (data_bytes / values) as u16;
+        let (codec, datatype) = codec_for(path, spec, container)?;
+        let (sample_rate, notes) = resolve_rate(f64::from(spec.sample_rate), rate, path)?;
+        let frames = FrameReader::new(Box::new(file), path, codec, 1, 0, Some(data_bytes));
+        let info = SourceInfo {
+            path: path.to_path_buf(),
+            datatype: datatype.to_string(),
+            sample_rate,
+            centre_frequency: None,
+            total_samples: Some(values / 2),
+            num_channels: 1,
+            channel: 0,
+        };
+        Ok(WavIqSource {
+            info,
+            frames,
+            notes,
+        })
+    }
+}
+
+/// Maps hound's errors: I/O stays I/O, the rest is a bad file.
+pub(crate) fn wav_error(path: &Path, e: hound::Error) -> Error {
+    match e {
+        hound::Error::IoError(e) => Error::io(path, e),
+        other => Error::file(path, format!("not a usable WAV file: {other}")),
+    }
+}
+
+/// The file positioned at the first data byte, and the data chunk length in bytes.
+fn data_chunk(path: &Path, reader: hound::WavReader<BufReader<File>>) -> Result<(File, u64)> {
+    let io = |e| Error::io(path, e);
+    let mut buffered = reader.into_inner();
+    let start = buffered.stream_position().map_err(io)?;
+    let mut file = buffered.into_inner();
+    // The data chunk's length field is the 4 bytes just before its first byte (RIFF layout).
+    let mut len = [0u8; 4];
+    file.seek(SeekFrom::Start(start.saturating_sub(4)))
+        .map_err(io)?;
+    file.read_exact(&mut len).map_err(io)?;
+    file.seek(SeekFrom::Start(start)).map_err(io)?;
+    Ok((file, u64::from(u32::from_le_bytes(len))))
+}
+
+fn codec_for(path: &Path, spec: hound::WavSpec, container: u16) -> Result<(Codec, &'static str)> {
+    use hound::SampleFormat::{Float, Int};
+    match (spec.sample_format, spec.bits_per_sample, container) {
+        (Int, 8, 1) => Ok((Codec::WavU8, "wav-u8")),
+        (Int, 16, 2) => Ok((Codec::Sigmf(SampleFormat::Ci16Le), "wav-i16")),
+        (Int, 24, 3) => Ok((Codec::WavI24, "wav-i24")),
+        (Int, 32, 4) => Ok((Codec::Sigmf(SampleFormat::Ci32Le), "wav-i32")),
+        (Float, 32, 4) => Ok((Codec::Sigmf(SampleFormat::Cf32Le), "wav-f32")),
+        (format, bits, bytes) => {
+            let kind = if format == Float { "float" } else { "integer" };
+            Err(Error::file(
+                path,
+                format!(
+                    "WAV {bits}-bit {kind} samples in {bytes}-byte containers are not supported"
+                ),
+            ))
+        }
+    }
+}
+
+/// The header's rate unless an explicit one is given; a differing override is noted.
+fn resolve_rate(header: f64, explicit: Option<f64>, path: &Path) -> Result<(f64, Vec<String>)> {
+    match explicit {
+        Some(rate) => {
+            check_rate_parameter(rate)?;
+            let notes = if rate != header {
+                vec![format!(
+                    "--rate {rate} Hz overrides the WAV header's {header} Hz"
+                )]
+            } else {
+                Vec::new()
+            };
+            Ok((rate, notes))
+        }
+        None if header > 0.0 => Ok((header, Vec::new())),
+        None => Err(Error::file(path, "WAV sample rate is 0; give --rate")),
     }
 }
 
 impl IqSource for WavIqSource {
     fn read(&mut self, buf: &mut [Complex32]) -> Result<usize> {
-        let _ = buf;
-        todo!()
+        self.frames.read(buf)
     }
     fn info(&self) -> &SourceInfo {
         &self.info
     }
     fn warnings(&self) -> Vec<String> {
-        todo!()
+        let mut warnings = self.notes.clone();
+        warnings.extend(self.frames.warnings());
+        warnings
     }
 }
