@@ -44,12 +44,14 @@ fn solve4(mut m: [[f64; 4]; 4], mut v: [f64; 4]) -> Option<[f64; 4]> {
         }
         m.swap(col, pivot);
         v.swap(col, pivot);
-        for row in col + 1..4 {
-            let f = m[row][col] / m[col][col];
-            for k in col..4 {
-                m[row][k] -= f * m[col][k];
+        let (top, below) = m.split_at_mut(col + 1);
+        let pivot_row = &top[col];
+        for (offset, row) in below.iter_mut().enumerate() {
+            let f = row[col] / pivot_row[col];
+            for (r, p) in row[col..].iter_mut().zip(&pivot_row[col..]) {
+                *r -= f * p;
             }
-            v[row] -= f * v[col];
+            v[col + 1 + offset] -= f * v[col];
         }
     }
     let mut x = [0.0; 4];

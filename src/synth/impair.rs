@@ -123,7 +123,9 @@ mod tests {
             let c = phase_deg.to_radians().cos();
             let want = 10.0 * ((1.0 + 2.0 * g * c + g * g) / (1.0 - 2.0 * g * c + g * g)).log10();
             let got = 10.0 * (p1 / p2).log10();
-            eprintln!("IRR {gain_db} dB {phase_deg} deg: measured {got:.4} dB, formula {want:.4} dB");
+            eprintln!(
+                "IRR {gain_db} dB {phase_deg} deg: measured {got:.4} dB, formula {want:.4} dB"
+            );
             assert!(
                 (got - want).abs() < 0.2,
                 "{gain_db} dB {phase_deg}°: {got} vs {want}"
