@@ -54,6 +54,16 @@ pub fn process_to_vec<B: Block + ?Sized>(block: &mut B, input: &[B::Input]) -> V
     out
 }
 
+/// The output bound of a block that works through its input in pieces of at most `chunk`:
+/// the sum of the bounds of the pieces, which for rate-changing stages exceeds the bound of one
+/// piece of the whole length (each piece may round up).
+pub fn pieces_bound(input_len: usize, chunk: usize, piece_bound: impl Fn(usize) -> usize) -> usize {
+    let chunk = chunk.max(1);
+    let whole = input_len / chunk;
+    let rest = input_len % chunk;
+    whole * piece_bound(chunk) + if rest > 0 { piece_bound(rest) } else { 0 }
+}
+
 /// Two blocks in series inside one thread, joined by an internal buffer built at construction.
 #[derive(Debug, Clone)]
 pub struct Chain<A: Block, B: Block<Input = A::Output>> {
@@ -83,6 +93,11 @@ impl<A: Block, B: Block<Input = A::Output>> Chain<A, B> {
         }
     }
 
+    /// Most outputs one internal piece of `n ≤ chunk` inputs can give.
+    fn piece_bound(&self, n: usize) -> usize {
+        self.second.max_output_len(self.first.max_output_len(n))
+    }
+
     /// The first block.
     pub fn first(&self) -> &A {
         &self.first
@@ -104,7 +119,7 @@ impl<A: Block, B: Block<Input = A::Output>> Block for Chain<A, B> {
         while consumed < input.len() {
             let room = output.len() - produced;
             let mut n = self.chunk.min(input.len() - consumed);
-            while n > 0 && self.max_output_len(n) > room {
+            while n > 0 && self.piece_bound(n) > room {
                 n /= 2;
             }
             if n == 0 {

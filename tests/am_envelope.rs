@@ -62,8 +62,8 @@ fn measured_carrier_offset_and_cnr() {
     let carrier = m.carrier_offset_hz.unwrap();
     assert!((carrier - 100_037.0).abs() < 2.0, "carrier at {carrier} Hz");
     // CNR by its definition: carrier power A_c² = 0.0625 over noise in 2W = 10 kHz, with noise
-    // density N0 = 1e-5 / 2.4e6: 10·log10(0.0625 / (N0·1e4)) = 31.8 dB.
-    let expected = 10.0 * (0.0625 / (1e-5 / RATE * 1e4) as f64).log10();
+    // density N0 = 1e-5 / 2.4e6: 10·log10(0.0625 / (N0·1e4)) = 61.8 dB.
+    let expected = 10.0 * (0.0625 / (1e-5 / RATE * 1e4)).log10();
     let cnr = m.cnr_db.unwrap();
     assert!(
         (cnr - expected).abs() < 1.0,

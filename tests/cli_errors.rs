@@ -271,11 +271,22 @@ fn non_finite_samples_are_counted_and_never_reach_the_wav() {
         samples[i] = Complex32::new(f32::NAN, f32::INFINITY);
     }
     let bad = samples.iter().filter(|s| !s.re.is_finite()).count();
-    let rec = write_sigmf(&dir, "nan", SampleFormat::Cf32Le, 240_000.0, &samples);
+    // Written by hand: the project's own writers refuse to store non-finite samples.
+    let raw = dir.join("nan.cf32");
+    let bytes: Vec<u8> = samples
+        .iter()
+        .flat_map(|s| [s.re.to_le_bytes(), s.im.to_le_bytes()])
+        .flatten()
+        .collect();
+    std::fs::write(&raw, bytes).unwrap();
     let wav = dir.join("nan.wav");
     let out = amrx(&[
         "demod",
-        &rec.display().to_string(),
+        &raw.display().to_string(),
+        "--format",
+        "cf32_le",
+        "--rate",
+        "240000",
         "--mode",
         "am",
         "--offset",

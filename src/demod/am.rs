@@ -8,14 +8,16 @@
 
 use super::envelope::EnvelopeDetector;
 use super::receiver::{Measurements, Receiver};
-use crate::block::Block;
+use crate::block::{pieces_bound, Block};
 use crate::dsp::{
     design_lowpass, DcBlocker, DecimationPlan, Fir, LowpassSpec, Mixer, MultiStageDecimator,
     RationalResampler,
 };
-use crate::measure::{estimate_cnr_db, find_carrier, ModulationMeter, PowerSpectrum};
+use crate::measure::{estimate_cnr_db_within, find_carrier, ModulationMeter, PowerSpectrum};
 use crate::{Complex32, Error, Result};
 
+/// How far beyond the channel the decimation keeps the spectrum flat, in bandwidths.
+const NOISE_VIEW: f64 = 2.0;
 /// Input samples processed per internal step; sizes every internal buffer.
 const CHUNK: usize = 8192;
 /// Stopband attenuation of the decimation and audio filters (common practice, no source).
@@ -65,12 +67,19 @@ impl AmConfig {
         )
     }
 
-    /// The rate the channel is filtered and detected at: at least the audio rate and four times
-    /// the bandwidth, so the envelope's harmonics do not alias (common practice, no source).
+    /// The rate the channel is filtered and detected at: at least the audio rate, and room for
+    /// the noise view (±[`NOISE_VIEW`] × bandwidth) with its transition band, so the envelope's
+    /// harmonics do not alias either (common practice, no source).
     fn min_detection_rate(&self) -> f64 {
         self.audio_rate
-            .max(4.0 * self.bandwidth_hz)
+            .max(3.0 * NOISE_VIEW * self.bandwidth_hz)
             .min(self.input_rate)
+    }
+
+    /// The flat band of the decimation cascade: wider than the channel, so the spectrum shows
+    /// the noise floor beside the signal for the CNR estimate.
+    fn noise_view_hz(&self) -> f64 {
+        NOISE_VIEW * self.bandwidth_hz
     }
 }
 
@@ -143,6 +152,9 @@ pub struct AmReceiver {
     audio: RationalResampler<f32>,
     spectrum: PowerSpectrum,
     meter: ModulationMeter,
+    /// Envelope samples still to skip before metering: the filters' start-up transient would
+    /// otherwise read as deep negative modulation.
+    settling: usize,
     buffers: Buffers,
 }
 
@@ -169,7 +181,7 @@ impl AmReceiver {
         let plan = DecimationPlan::new(
             config.input_rate,
             config.min_detection_rate(),
-            config.bandwidth_hz,
+            config.noise_view_hz(),
             FILTER_ATTENUATION_DB,
         )?;
         let detection_rate = plan.output_rate;
@@ -182,7 +194,7 @@ impl AmReceiver {
             FILTER_ATTENUATION_DB,
         )?;
         let buffers = Buffers::new(&decimator);
-        Ok(AmReceiver {
+        let mut receiver = AmReceiver {
             input_dc: centre_spike_blocker(&config)?,
             mixer: Mixer::new(-config.offset_hz, config.input_rate)?,
             decimator,
@@ -192,10 +204,13 @@ impl AmReceiver {
             audio,
             spectrum: PowerSpectrum::new(spectrum_len(detection_rate), detection_rate)?,
             meter: ModulationMeter::new(detection_rate),
+            settling: 0,
             buffers,
             detection_rate,
             config,
-        })
+        };
+        receiver.settling = receiver.settling_samples();
+        Ok(receiver)
     }
 
     /// The rate at which the channel is filtered and the envelope detected, in Hz.
@@ -206,6 +221,24 @@ impl AmReceiver {
     /// The settings.
     pub fn config(&self) -> &AmConfig {
         &self.config
+    }
+
+    /// Envelope samples until the filters ahead of the detector have settled: twice their
+    /// delay, plus five time constants of the centre-spike blocker when it is in use.
+    fn settling_samples(&self) -> usize {
+        let factor = self.config.input_rate / self.detection_rate;
+        let filters = self.decimator.delay() / factor + self.channel.delay();
+        let spike = if self.input_dc.is_some() {
+            5.0 * self.detection_rate / (std::f64::consts::TAU * CARRIER_DC_CORNER_HZ)
+        } else {
+            0.0
+        };
+        (2.0 * filters + spike).ceil() as usize
+    }
+
+    /// Most outputs one piece of `n ≤ CHUNK` inputs can give.
+    fn piece_bound(&self, n: usize) -> usize {
+        self.audio.max_output_len(self.decimator.max_output_len(n))
     }
 
     /// Runs one piece of at most [`CHUNK`] inputs through every stage; returns outputs written.
@@ -226,7 +259,9 @@ impl AmReceiver {
         self.channel.process(decimated, &mut b.filtered[..n]);
         self.envelope
             .process(&b.filtered[..n], &mut b.envelope[..n]);
-        self.meter.push(&b.envelope[..n]);
+        let skip = self.settling.min(n);
+        self.settling -= skip;
+        self.meter.push(&b.envelope[skip..n]);
         self.carrier_dc
             .process(&b.envelope[..n], &mut b.message[..n]);
         self.audio.process(&b.message[..n], output).1
@@ -237,7 +272,9 @@ impl AmReceiver {
         match find_carrier(&self.spectrum, 0.0, search) {
             Some(peak) => {
                 m.carrier_offset_hz = Some(self.config.offset_hz + peak.frequency_hz);
-                let cnr = estimate_cnr_db(&self.spectrum, &peak, self.config.bandwidth_hz);
+                let flat = self.config.noise_view_hz().min(0.5 * self.detection_rate);
+                let cnr =
+                    estimate_cnr_db_within(&self.spectrum, &peak, self.config.bandwidth_hz, flat);
                 if cnr.is_finite() {
                     m.cnr_db = Some(cnr);
                     if cnr < ENVELOPE_THRESHOLD_CNR_DB {
@@ -316,7 +353,7 @@ impl Block for AmReceiver {
         let mut produced = 0;
         while consumed < input.len() {
             let n = CHUNK.min(input.len() - consumed);
-            if self.max_output_len(n) > output.len() - produced {
+            if self.piece_bound(n) > output.len() - produced {
                 break;
             }
             produced += self.process_piece(&input[consumed..consumed + n], &mut output[produced..]);
@@ -326,8 +363,7 @@ impl Block for AmReceiver {
     }
 
     fn max_output_len(&self, input_len: usize) -> usize {
-        self.audio
-            .max_output_len(self.decimator.max_output_len(input_len))
+        pieces_bound(input_len, CHUNK, |n| self.piece_bound(n))
     }
 
     fn delay(&self) -> f64 {
@@ -350,6 +386,7 @@ impl Block for AmReceiver {
             self.spectrum = fresh;
         }
         self.meter = ModulationMeter::new(self.detection_rate);
+        self.settling = self.settling_samples();
     }
 }
 

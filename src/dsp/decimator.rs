@@ -54,6 +54,15 @@ impl<T: Sample> FirDecimator<T> {
     pub fn num_taps(&self) -> usize {
         self.taps.len()
     }
+
+    /// Exactly how many outputs the next `input_len` inputs produce from the current state.
+    pub fn output_len(&self, input_len: usize) -> usize {
+        if input_len < self.until_output {
+            0
+        } else {
+            1 + (input_len - self.until_output) / self.factor
+        }
+    }
 }
 
 impl<T: Sample> Block for FirDecimator<T> {

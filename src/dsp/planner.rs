@@ -298,6 +298,13 @@ pub struct MultiStageDecimator<T: Sample> {
 }
 
 impl<T: Sample> MultiStageDecimator<T> {
+    /// Exactly how many outputs the next `input_len` inputs produce from the current state.
+    pub fn output_len(&self, input_len: usize) -> usize {
+        self.stages
+            .iter()
+            .fold(input_len, |n, stage| stage.output_len(n))
+    }
+
     /// Builds the blocks of `plan`.
     pub fn new(plan: &DecimationPlan) -> Result<Self> {
         let stages = plan
@@ -350,11 +357,13 @@ impl<T: Sample> Block for MultiStageDecimator<T> {
         let mut consumed = 0;
         let mut produced = 0;
         while consumed < input.len() {
-            // ⌈n/D⌉ bounds the outputs of n inputs from any state, so n ≤ room·D always fits.
+            // Exact counts, not the ⌈n/D⌉ bound: per-piece bounds would add up to more than the
+            // bound of the whole and leave input unconsumed with room to spare.
             let room = output.len() - produced;
-            let n = CHUNK
-                .min(input.len() - consumed)
-                .min(room.saturating_mul(self.total_factor));
+            let mut n = CHUNK.min(input.len() - consumed);
+            while n > 0 && self.output_len(n) > room {
+                n /= 2;
+            }
             if n == 0 {
                 break;
             }
@@ -469,5 +478,22 @@ mod tests {
         let none = DecimationPlan::new(48_000.0, 48_000.0, 10_000.0, 70.0).unwrap();
         let mut id = MultiStageDecimator::<Complex32>::new(&none).unwrap();
         assert_eq!(process_to_vec(&mut id, &x[..100]), x[..100].to_vec());
+    }
+
+    /// An output buffer of `max_output_len` takes a whole call, also when the input is longer
+    /// than the internal chunk and the total factor does not divide it (2.048 MS/s ÷ 40).
+    #[test]
+    fn a_bounded_output_takes_the_whole_input() {
+        let plan = DecimationPlan::new(2_048_000.0, 48_000.0, 5_000.0, 70.0).unwrap();
+        let mut m = MultiStageDecimator::<Complex32>::new(&plan).unwrap();
+        let x = random_complex(8192, 5);
+        let mut total = 0;
+        for _ in 0..50 {
+            let mut out = vec![Complex32::default(); m.max_output_len(x.len())];
+            let (consumed, produced) = m.process(&x, &mut out);
+            assert_eq!(consumed, x.len());
+            total += produced;
+        }
+        assert_eq!(total, 50 * 8192 / 40);
     }
 }

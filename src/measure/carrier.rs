@@ -113,6 +113,17 @@ pub fn estimate_noise_density(
     carrier: &CarrierPeak,
     message_bandwidth_hz: f64,
 ) -> Option<f64> {
+    estimate_noise_density_within(spectrum, carrier, message_bandwidth_hz, f64::INFINITY)
+}
+
+/// [`estimate_noise_density`] using only bins with |f| ≤ `flat_hz`: the part of the spectrum
+/// where the filters ahead of it are flat, so their roll-off does not read as a lower floor.
+pub fn estimate_noise_density_within(
+    spectrum: &PowerSpectrum,
+    carrier: &CarrierPeak,
+    message_bandwidth_hz: f64,
+    flat_hz: f64,
+) -> Option<f64> {
     if spectrum.frames() == 0 || !carrier.frequency_hz.is_finite() {
         return None;
     }
@@ -122,6 +133,7 @@ pub fn estimate_noise_density(
     let fs = spectrum.sample_rate();
     let mut floor: Vec<f64> = (0..n)
         .filter(|&k| k.min(n - k) > DC_GUARD_BINS)
+        .filter(|&k| spectrum.bin_frequency(k).abs() <= flat_hz)
         .filter(|&k| {
             circular_offset(spectrum.bin_frequency(k), carrier.frequency_hz, fs).abs() > exclusion
         })
@@ -149,10 +161,22 @@ pub fn estimate_cnr_db(
     carrier: &CarrierPeak,
     message_bandwidth_hz: f64,
 ) -> f64 {
+    estimate_cnr_db_within(spectrum, carrier, message_bandwidth_hz, f64::INFINITY)
+}
+
+/// [`estimate_cnr_db`] with the noise floor taken only where |f| ≤ `flat_hz`
+/// (see [`estimate_noise_density_within`]).
+pub fn estimate_cnr_db_within(
+    spectrum: &PowerSpectrum,
+    carrier: &CarrierPeak,
+    message_bandwidth_hz: f64,
+    flat_hz: f64,
+) -> f64 {
     if !(message_bandwidth_hz > 0.0 && message_bandwidth_hz.is_finite()) {
         return f64::NAN;
     }
-    let Some(n0) = estimate_noise_density(spectrum, carrier, message_bandwidth_hz) else {
+    let Some(n0) = estimate_noise_density_within(spectrum, carrier, message_bandwidth_hz, flat_hz)
+    else {
         return f64::NAN;
     };
     if n0 <= 0.0 {

@@ -5,7 +5,10 @@ pub mod modulation;
 pub mod spectrum;
 pub mod tone;
 
-pub use carrier::{estimate_cnr_db, estimate_noise_density, find_carrier, CarrierPeak};
+pub use carrier::{
+    estimate_cnr_db, estimate_cnr_db_within, estimate_noise_density, estimate_noise_density_within,
+    find_carrier, CarrierPeak,
+};
 pub use modulation::{ModulationDepth, ModulationMeter};
 pub use spectrum::PowerSpectrum;
 pub use tone::{estimate_tone_hz, fit_tone, sinad_db, snr_in_band_db, ToneFit};
