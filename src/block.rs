@@ -138,8 +138,7 @@ impl<A: Block, B: Block<Input = A::Output>> Block for Chain<A, B> {
     }
 
     fn max_output_len(&self, input_len: usize) -> usize {
-        self.second
-            .max_output_len(self.first.max_output_len(input_len))
+        pieces_bound(input_len, self.chunk, |n| self.piece_bound(n))
     }
 
     fn delay(&self) -> f64 {
@@ -162,7 +161,7 @@ pub fn process_in_chunks<B: Block + ?Sized>(
 ) -> Vec<B::Output> {
     let mut out = Vec::new();
     let mut at = 0;
-    let mut piece = vec![B::Output::default(); 0];
+    let mut piece: Vec<B::Output> = Vec::new();
     for &size in sizes.iter().cycle() {
         if at >= input.len() {
             break;
@@ -178,4 +177,35 @@ pub fn process_in_chunks<B: Block + ?Sized>(
         at += consumed.max(1);
     }
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::dsp::{FirDecimator, Gain};
+
+    /// A chain holding a rate-changing block takes a whole input whose output buffer is
+    /// `max_output_len`, and gives the same output however the input is chunked.
+    #[test]
+    fn chain_with_decimation_is_whole_and_chunk_invariant() {
+        let make = || {
+            Chain::new(
+                FirDecimator::<f32>::new(&[0.25, 0.5, 0.25], 3).unwrap(),
+                Gain::new(2.0),
+                100,
+            )
+        };
+        let input: Vec<f32> = (0..10_001).map(|n| (n as f32 * 0.01).sin()).collect();
+        let mut chain = make();
+        let mut out = vec![0.0; chain.max_output_len(input.len())];
+        let (consumed, produced) = chain.process(&input, &mut out);
+        assert_eq!(consumed, input.len());
+        assert_eq!(produced, 3334);
+        for sizes in [vec![1usize], vec![7, 1024], vec![99, 101, 3]] {
+            assert_eq!(
+                process_in_chunks(&mut make(), &input, &sizes),
+                out[..produced].to_vec()
+            );
+        }
+    }
 }

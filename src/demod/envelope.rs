@@ -62,6 +62,19 @@ mod tests {
     }
 
     #[test]
+    fn chunk_invariant() {
+        let input: Vec<Complex32> = (0..5000)
+            .map(|n| Complex32::new((n as f32 * 0.37).sin(), (n as f32 * 0.11).cos()))
+            .collect();
+        let whole = process_to_vec(&mut EnvelopeDetector::new(), &input);
+        for sizes in [vec![1usize], vec![7, 1024], vec![333, 1, 4096]] {
+            let pieces =
+                crate::block::process_in_chunks(&mut EnvelopeDetector::new(), &input, &sizes);
+            assert_eq!(pieces, whole, "sizes {sizes:?}");
+        }
+    }
+
+    #[test]
     fn short_output_consumes_only_what_fits() {
         let input = [Complex32::new(1.0, 0.0); 5];
         let mut out = [0.0f32; 3];

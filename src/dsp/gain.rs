@@ -44,3 +44,22 @@ impl Block for Gain {
 
     fn reset(&mut self) {}
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::block::{process_in_chunks, process_to_vec};
+
+    #[test]
+    fn scales_and_is_chunk_invariant() {
+        let input: Vec<f32> = (0..3000).map(|n| n as f32 - 1500.0).collect();
+        let whole = process_to_vec(&mut Gain::new(-0.25), &input);
+        assert_eq!(whole[0], 375.0);
+        for sizes in [vec![1usize], vec![7, 1024]] {
+            assert_eq!(
+                process_in_chunks(&mut Gain::new(-0.25), &input, &sizes),
+                whole
+            );
+        }
+    }
+}
