@@ -1,32 +1,26 @@
 //! Full-carrier AM (A3E) by envelope detection, from IQ at any rate to audio.
 //!
-//! Chain: [DC blocker when the hardware's centre spike lies in the channel] → mixer (tune the
-//! carrier to 0 Hz) → multi-stage decimation → channel filter (±bandwidth) → envelope detector →
-//! DC blocker (removes the carrier) → audio low-pass and resampling to the audio rate.
-//! Meters tap the channel (spectrum: carrier frequency and CNR) and the envelope (modulation
-//! depth).
+//! Chain: [`ChannelFrontEnd`] (centre-spike removal, tuning, decimation, channel filter ±B) →
+//! [`EnvelopeDetector`] → [`AudioStage`] (DC blocker removes the carrier, audio low-pass and
+//! resampling). Meters tap the front end's spectrum (carrier frequency, CNR) and the envelope
+//! (modulation depth).
 
+use super::audio_stage::{validate_audio, AudioStage};
 use super::envelope::EnvelopeDetector;
+use super::front_end::{validate_tuning, ChannelFrontEnd, FrontEndConfig, CHUNK};
 use super::receiver::{Measurements, Receiver};
 use crate::block::{pieces_bound, Block};
-use crate::dsp::{
-    design_lowpass, DcBlocker, DecimationPlan, Fir, LowpassSpec, Mixer, MultiStageDecimator,
-    RationalResampler,
-};
-use crate::measure::{estimate_cnr_db_within, find_carrier, ModulationMeter, PowerSpectrum};
-use crate::{Complex32, Error, Result};
+use crate::measure::ModulationMeter;
+use crate::{Complex32, Result};
 
-/// How far beyond the channel the decimation keeps the spectrum flat, in bandwidths.
-const NOISE_VIEW: f64 = 2.0;
-/// Input samples processed per internal step; sizes every internal buffer.
-const CHUNK: usize = 8192;
-/// Stopband attenuation of the decimation and audio filters (common practice, no source).
-const FILTER_ATTENUATION_DB: f64 = 70.0;
 /// Negative modulation at or beyond which the envelope detector distorts.
 const OVERMODULATION_NEGATIVE: f64 = 0.99;
 /// The envelope detector's threshold by the 1 % rule: P(noise envelope > A_c) = e^(−ρ) = 0.01,
 /// ρ = ln 100 ≈ 6.6 dB (Haykin, Communication Systems, ch. 2, threshold effect).
 const ENVELOPE_THRESHOLD_CNR_DB: f64 = 6.6;
+/// The carrier is searched for within this far of the tuned frequency, at most (half the
+/// bandwidth when that is smaller; common practice, no source).
+const CARRIER_SEARCH_HZ: f64 = 2000.0;
 
 /// Settings of a full-carrier AM receiver.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -59,113 +53,33 @@ impl AmConfig {
 
     /// Checks that the settings can be honoured, naming the offending option.
     pub fn validate(&self) -> Result<()> {
-        validate_channel(
-            self.input_rate,
-            self.offset_hz,
-            self.bandwidth_hz,
-            self.audio_rate,
-        )
+        validate_tuning(self.input_rate, self.offset_hz, self.bandwidth_hz)?;
+        validate_audio(self.audio_rate, self.bandwidth_hz)
     }
 
-    /// The rate the channel is filtered and detected at: at least the audio rate, and room for
-    /// the noise view (±[`NOISE_VIEW`] × bandwidth) with its transition band, so the envelope's
-    /// harmonics do not alias either (common practice, no source).
-    fn min_detection_rate(&self) -> f64 {
-        self.audio_rate
-            .max(3.0 * NOISE_VIEW * self.bandwidth_hz)
-            .min(self.input_rate)
+    /// The shared front end's settings for this receiver.
+    pub fn front_end(&self) -> FrontEndConfig {
+        FrontEndConfig {
+            input_rate: self.input_rate,
+            offset_hz: self.offset_hz,
+            channel_hz: self.bandwidth_hz,
+            min_detection_rate: self.audio_rate,
+        }
     }
-
-    /// The flat band of the decimation cascade: wider than the channel, so the spectrum shows
-    /// the noise floor beside the signal for the CNR estimate.
-    fn noise_view_hz(&self) -> f64 {
-        NOISE_VIEW * self.bandwidth_hz
-    }
-}
-
-/// Checks input rate, tuning offset, bandwidth and audio rate together; shared by every mode.
-pub fn validate_channel(
-    input_rate: f64,
-    offset_hz: f64,
-    bandwidth_hz: f64,
-    audio_rate: f64,
-) -> Result<()> {
-    if !(input_rate.is_finite() && input_rate > 0.0) {
-        return Err(Error::parameter(
-            "--rate",
-            input_rate,
-            "the sample rate must be a positive number of Hz",
-        ));
-    }
-    let nyquist = input_rate / 2.0;
-    if !offset_hz.is_finite() || offset_hz.abs() >= nyquist {
-        return Err(Error::parameter(
-            "--offset",
-            offset_hz,
-            format!("outside ±rate/2 (±{nyquist} Hz) of the recording"),
-        ));
-    }
-    if !(audio_rate.is_finite() && (1000.0..=384_000.0).contains(&audio_rate)) {
-        return Err(Error::parameter(
-            "--audio-rate",
-            audio_rate,
-            "must be between 1000 and 384000 Hz",
-        ));
-    }
-    if !(bandwidth_hz.is_finite() && bandwidth_hz > 0.0) {
-        return Err(Error::parameter(
-            "--bandwidth",
-            bandwidth_hz,
-            "must be a positive number of Hz",
-        ));
-    }
-    if bandwidth_hz >= 0.45 * audio_rate {
-        return Err(Error::parameter(
-            "--bandwidth",
-            bandwidth_hz,
-            format!(
-                "must be below 0.45 × the audio rate ({} Hz)",
-                0.45 * audio_rate
-            ),
-        ));
-    }
-    if offset_hz.abs() + bandwidth_hz >= 0.9 * nyquist {
-        return Err(Error::parameter(
-            "--bandwidth",
-            bandwidth_hz,
-            format!("the channel (offset ± bandwidth) does not fit inside 90 % of ±rate/2 (±{nyquist} Hz)"),
-        ));
-    }
-    Ok(())
 }
 
 /// Full-carrier AM receiver by envelope detection.
 pub struct AmReceiver {
     config: AmConfig,
-    detection_rate: f64,
-    input_dc: Option<DcBlocker<Complex32>>,
-    mixer: Mixer,
-    decimator: MultiStageDecimator<Complex32>,
-    channel: Fir<Complex32>,
+    front: ChannelFrontEnd,
     envelope: EnvelopeDetector,
-    carrier_dc: DcBlocker<f32>,
-    audio: RationalResampler<f32>,
-    spectrum: PowerSpectrum,
+    audio: AudioStage,
     meter: ModulationMeter,
     /// Envelope samples still to skip before metering: the filters' start-up transient would
     /// otherwise read as deep negative modulation.
     settling: usize,
-    buffers: Buffers,
-}
-
-/// Scratch between the stages, sized once for [`CHUNK`] inputs.
-struct Buffers {
-    unspiked: Vec<Complex32>,
-    tuned: Vec<Complex32>,
-    decimated: Vec<Complex32>,
-    filtered: Vec<Complex32>,
-    envelope: Vec<f32>,
-    message: Vec<f32>,
+    channel: Vec<Complex32>,
+    detected: Vec<f32>,
 }
 
 impl AmReceiver {
@@ -178,44 +92,24 @@ impl AmReceiver {
     /// ```
     pub fn new(config: AmConfig) -> Result<Self> {
         config.validate()?;
-        let plan = DecimationPlan::new(
-            config.input_rate,
-            config.min_detection_rate(),
-            config.noise_view_hz(),
-            FILTER_ATTENUATION_DB,
-        )?;
-        let detection_rate = plan.output_rate;
-        let decimator = MultiStageDecimator::new(&plan)?;
-        let channel = Fir::new(&channel_taps(config.bandwidth_hz, detection_rate)?)?;
-        let audio = RationalResampler::design(
-            detection_rate,
-            config.audio_rate,
-            config.bandwidth_hz,
-            FILTER_ATTENUATION_DB,
-        )?;
-        let buffers = Buffers::new(&decimator);
-        let mut receiver = AmReceiver {
-            input_dc: centre_spike_blocker(&config)?,
-            mixer: Mixer::new(-config.offset_hz, config.input_rate)?,
-            decimator,
-            channel,
+        let front = ChannelFrontEnd::new(config.front_end())?;
+        let rate = front.detection_rate();
+        let mid = front.max_output_len(CHUNK);
+        Ok(AmReceiver {
+            audio: AudioStage::new(rate, config.audio_rate, config.bandwidth_hz, mid)?,
+            meter: ModulationMeter::new(rate),
+            settling: front.settling_samples(),
             envelope: EnvelopeDetector::new(),
-            carrier_dc: DcBlocker::new(CARRIER_DC_CORNER_HZ, detection_rate)?,
-            audio,
-            spectrum: PowerSpectrum::new(spectrum_len(detection_rate), detection_rate)?,
-            meter: ModulationMeter::new(detection_rate),
-            settling: 0,
-            buffers,
-            detection_rate,
+            channel: vec![Complex32::default(); mid],
+            detected: vec![0.0; mid],
+            front,
             config,
-        };
-        receiver.settling = receiver.settling_samples();
-        Ok(receiver)
+        })
     }
 
     /// The rate at which the channel is filtered and the envelope detected, in Hz.
     pub fn detection_rate(&self) -> f64 {
-        self.detection_rate
+        self.front.detection_rate()
     }
 
     /// The settings.
@@ -223,123 +117,40 @@ impl AmReceiver {
         &self.config
     }
 
-    /// Envelope samples until the filters ahead of the detector have settled: twice their
-    /// delay, plus five time constants of the centre-spike blocker when it is in use.
-    fn settling_samples(&self) -> usize {
-        let factor = self.config.input_rate / self.detection_rate;
-        let filters = self.decimator.delay() / factor + self.channel.delay();
-        let spike = if self.input_dc.is_some() {
-            5.0 * self.detection_rate / (std::f64::consts::TAU * CARRIER_DC_CORNER_HZ)
-        } else {
-            0.0
-        };
-        (2.0 * filters + spike).ceil() as usize
-    }
-
     /// Most outputs one piece of `n ≤ CHUNK` inputs can give.
     fn piece_bound(&self, n: usize) -> usize {
-        self.audio.max_output_len(self.decimator.max_output_len(n))
+        self.audio.max_output_len(self.front.max_output_len(n))
     }
 
     /// Runs one piece of at most [`CHUNK`] inputs through every stage; returns outputs written.
     fn process_piece(&mut self, input: &[Complex32], output: &mut [f32]) -> usize {
-        let b = &mut self.buffers;
-        let input = match self.input_dc.as_mut() {
-            Some(dc) => {
-                dc.process(input, &mut b.unspiked[..input.len()]);
-                &b.unspiked[..input.len()]
-            }
-            None => input,
-        };
-        let tuned = &mut b.tuned[..input.len()];
-        self.mixer.process(input, tuned);
-        let (_, n) = self.decimator.process(tuned, &mut b.decimated);
-        let decimated = &b.decimated[..n];
-        self.spectrum.push(decimated);
-        self.channel.process(decimated, &mut b.filtered[..n]);
+        let (_, n) = self.front.process(input, &mut self.channel);
         self.envelope
-            .process(&b.filtered[..n], &mut b.envelope[..n]);
+            .process(&self.channel[..n], &mut self.detected[..n]);
         let skip = self.settling.min(n);
         self.settling -= skip;
-        self.meter.push(&b.envelope[skip..n]);
-        self.carrier_dc
-            .process(&b.envelope[..n], &mut b.message[..n]);
-        self.audio.process(&b.message[..n], output).1
+        self.meter.push(&self.detected[skip..n]);
+        self.audio.process(&self.detected[..n], output).1
     }
 
     fn carrier_measurements(&self, m: &mut Measurements) {
-        let search = (0.5 * self.config.bandwidth_hz).min(2000.0);
-        match find_carrier(&self.spectrum, 0.0, search) {
+        let search = (0.5 * self.config.bandwidth_hz).min(CARRIER_SEARCH_HZ);
+        match self.front.find_carrier(search) {
             Some(peak) => {
                 m.carrier_offset_hz = Some(self.config.offset_hz + peak.frequency_hz);
-                let flat = self.config.noise_view_hz().min(0.5 * self.detection_rate);
-                let cnr =
-                    estimate_cnr_db_within(&self.spectrum, &peak, self.config.bandwidth_hz, flat);
-                if cnr.is_finite() {
-                    m.cnr_db = Some(cnr);
-                    if cnr < ENVELOPE_THRESHOLD_CNR_DB {
-                        m.warnings.push(format!(
-                            "CNR {cnr:.1} dB is below the envelope detector's threshold (about {ENVELOPE_THRESHOLD_CNR_DB} dB): expect noise capture"
-                        ));
-                    }
+                m.cnr_db = self.front.cnr_db(&peak, self.config.bandwidth_hz);
+                if let Some(cnr) = m.cnr_db.filter(|&c| c < ENVELOPE_THRESHOLD_CNR_DB) {
+                    m.warnings.push(format!(
+                        "CNR {cnr:.1} dB is below the envelope detector's threshold (about {ENVELOPE_THRESHOLD_CNR_DB} dB): expect noise capture"
+                    ));
                 }
             }
-            None if self.spectrum.frames() > 0 => m.warnings.push(format!(
+            None if self.front.spectrum().frames() > 0 => m.warnings.push(format!(
                 "no carrier found within ±{search} Hz of the tuned frequency"
             )),
             None => m
                 .warnings
                 .push("too few samples to measure the carrier".to_string()),
-        }
-    }
-}
-
-/// Corner of the DC blocker that removes the carrier after detection (common practice, no
-/// source: below the lowest audio of interest, short enough to settle in tens of ms).
-const CARRIER_DC_CORNER_HZ: f64 = 10.0;
-
-/// The centre spike of a direct-conversion front end only needs removing when it lands inside
-/// the channel; a carrier within 100 Hz of the centre would be removed with it, so then not.
-fn centre_spike_blocker(config: &AmConfig) -> Result<Option<DcBlocker<Complex32>>> {
-    let offset = config.offset_hz.abs();
-    if offset >= 100.0 && offset <= 2.0 * config.bandwidth_hz {
-        Ok(Some(DcBlocker::new(
-            CARRIER_DC_CORNER_HZ,
-            config.input_rate,
-        )?))
-    } else {
-        Ok(None)
-    }
-}
-
-/// The channel filter: pass ±bandwidth, stop from 1.3 × bandwidth (common practice, no source).
-fn channel_taps(bandwidth_hz: f64, rate: f64) -> Result<Vec<f32>> {
-    let stop = (1.3 * bandwidth_hz).min(0.49 * rate);
-    design_lowpass(&LowpassSpec {
-        passband_hz: bandwidth_hz,
-        stopband_hz: stop,
-        attenuation_db: 60.0,
-        sample_rate: rate,
-    })
-}
-
-/// Spectrum length giving bins of about 10 Hz or finer, within 1024..=16384.
-fn spectrum_len(rate: f64) -> usize {
-    ((rate / 10.0).ceil() as usize)
-        .next_power_of_two()
-        .clamp(1024, 16384)
-}
-
-impl Buffers {
-    fn new(decimator: &MultiStageDecimator<Complex32>) -> Self {
-        let mid = decimator.max_output_len(CHUNK);
-        Buffers {
-            unspiked: vec![Complex32::default(); CHUNK],
-            tuned: vec![Complex32::default(); CHUNK],
-            decimated: vec![Complex32::default(); mid],
-            filtered: vec![Complex32::default(); mid],
-            envelope: vec![0.0; mid],
-            message: vec![0.0; mid],
         }
     }
 }
@@ -367,26 +178,15 @@ impl Block for AmReceiver {
     }
 
     fn delay(&self) -> f64 {
-        let factor = self.config.input_rate / self.detection_rate;
-        self.decimator.delay() + (self.channel.delay() + self.audio.delay()) * factor
+        let factor = self.config.input_rate / self.detection_rate();
+        self.front.delay() + self.audio.delay() * factor
     }
 
     fn reset(&mut self) {
-        if let Some(dc) = self.input_dc.as_mut() {
-            dc.reset();
-        }
-        self.mixer.reset();
-        self.decimator.reset();
-        self.channel.reset();
-        self.carrier_dc.reset();
+        self.front.reset();
         self.audio.reset();
-        if let Ok(fresh) =
-            PowerSpectrum::new(spectrum_len(self.detection_rate), self.detection_rate)
-        {
-            self.spectrum = fresh;
-        }
-        self.meter = ModulationMeter::new(self.detection_rate);
-        self.settling = self.settling_samples();
+        self.meter = ModulationMeter::new(self.detection_rate());
+        self.settling = self.front.settling_samples();
     }
 }
 
@@ -403,13 +203,14 @@ impl Receiver for AmReceiver {
         let mut m = Measurements::default();
         self.carrier_measurements(&mut m);
         m.modulation_depth = self.meter.depth();
-        if let Some(depth) = m.modulation_depth {
-            if depth.negative >= OVERMODULATION_NEGATIVE {
-                m.warnings.push(format!(
-                    "overmodulation: negative peaks reach {:.0} %; the envelope detector distorts",
-                    100.0 * depth.negative
-                ));
-            }
+        if let Some(depth) = m
+            .modulation_depth
+            .filter(|d| d.negative >= OVERMODULATION_NEGATIVE)
+        {
+            m.warnings.push(format!(
+                "overmodulation: negative peaks reach {:.0} %; the envelope detector distorts",
+                100.0 * depth.negative
+            ));
         }
         m
     }

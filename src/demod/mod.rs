@@ -1,11 +1,18 @@
 //! Detectors and per-mode receivers.
+//!
+//! Every receiver is a [`ChannelFrontEnd`] (tune, decimate, channel filter, spectrum), a
+//! detector, and an [`AudioStage`] (DC removal, audio low-pass, resampling).
 
 pub mod am;
+pub mod audio_stage;
 pub mod envelope;
+pub mod front_end;
 pub mod mode;
 pub mod receiver;
 
 pub use am::{AmConfig, AmReceiver};
+pub use audio_stage::AudioStage;
 pub use envelope::EnvelopeDetector;
+pub use front_end::{ChannelFrontEnd, FrontEndConfig};
 pub use mode::Mode;
 pub use receiver::{Measurements, Receiver};

@@ -1,0 +1,332 @@
+//! The receive front end every mode shares: centre-spike removal, tuning, decimation to the
+//! detection rate, the channel filter, and the spectrum that carrier and CNR are measured on.
+
+use crate::block::{pieces_bound, Block};
+use crate::dsp::{
+    design_lowpass, DcBlocker, DecimationPlan, Fir, LowpassSpec, Mixer, MultiStageDecimator,
+};
+use crate::measure::{estimate_cnr_db_within, find_carrier, CarrierPeak, PowerSpectrum};
+use crate::{Complex32, Error, Result};
+
+/// Input samples processed per internal step; sizes every internal buffer.
+pub const CHUNK: usize = 8192;
+/// Stopband attenuation of the decimation and audio filters (common practice, no source).
+pub const FILTER_ATTENUATION_DB: f64 = 70.0;
+/// How far beyond the channel the decimation keeps the spectrum flat, in channel widths.
+const NOISE_VIEW: f64 = 2.0;
+/// Corner of the centre-spike blocker (common practice, no source).
+const SPIKE_CORNER_HZ: f64 = 10.0;
+
+/// Settings of the front end.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FrontEndConfig {
+    /// IQ sample rate in Hz.
+    pub input_rate: f64,
+    /// Carrier (or suppressed-carrier reference) frequency relative to the recording centre.
+    pub offset_hz: f64,
+    /// The channel filter passes ±`channel_hz` around the tuned frequency.
+    pub channel_hz: f64,
+    /// Lowest acceptable detection rate (usually the audio rate).
+    pub min_detection_rate: f64,
+}
+
+/// Tune, decimate and channel-filter: complex baseband at the input rate in, the channel at the
+/// detection rate out, with the tuned frequency at 0 Hz.
+pub struct ChannelFrontEnd {
+    config: FrontEndConfig,
+    detection_rate: f64,
+    spike: Option<DcBlocker<Complex32>>,
+    mixer: Mixer,
+    decimator: MultiStageDecimator<Complex32>,
+    channel: Fir<Complex32>,
+    spectrum: PowerSpectrum,
+    unspiked: Vec<Complex32>,
+    tuned: Vec<Complex32>,
+    decimated: Vec<Complex32>,
+}
+
+impl ChannelFrontEnd {
+    /// Builds the front end; the tuning offset must lie inside ±rate/2 with the channel.
+    ///
+    /// ```
+    /// use amrx::demod::front_end::{ChannelFrontEnd, FrontEndConfig};
+    /// let fe = ChannelFrontEnd::new(FrontEndConfig {
+    ///     input_rate: 2_400_000.0,
+    ///     offset_hz: 100_000.0,
+    ///     channel_hz: 5_000.0,
+    ///     min_detection_rate: 48_000.0,
+    /// })
+    /// .unwrap();
+    /// assert_eq!(fe.detection_rate(), 48_000.0);
+    /// ```
+    pub fn new(config: FrontEndConfig) -> Result<Self> {
+        validate_tuning(config.input_rate, config.offset_hz, config.channel_hz)?;
+        let min_rate = config
+            .min_detection_rate
+            .max(3.0 * NOISE_VIEW * config.channel_hz)
+            .min(config.input_rate);
+        let view = (NOISE_VIEW * config.channel_hz).min(0.45 * min_rate);
+        let plan = DecimationPlan::new(config.input_rate, min_rate, view, FILTER_ATTENUATION_DB)?;
+        let detection_rate = plan.output_rate;
+        let decimator = MultiStageDecimator::new(&plan)?;
+        let mid = decimator.max_output_len(CHUNK);
+        Ok(ChannelFrontEnd {
+            spike: centre_spike_blocker(&config)?,
+            mixer: Mixer::new(-config.offset_hz, config.input_rate)?,
+            channel: Fir::new(&channel_taps(config.channel_hz, detection_rate)?)?,
+            spectrum: PowerSpectrum::new(spectrum_len(detection_rate), detection_rate)?,
+            decimator,
+            detection_rate,
+            config,
+            unspiked: vec![Complex32::default(); CHUNK],
+            tuned: vec![Complex32::default(); CHUNK],
+            decimated: vec![Complex32::default(); mid],
+        })
+    }
+
+    /// The rate the channel comes out at, in Hz.
+    pub fn detection_rate(&self) -> f64 {
+        self.detection_rate
+    }
+
+    /// The settings.
+    pub fn config(&self) -> &FrontEndConfig {
+        &self.config
+    }
+
+    /// The averaged spectrum of the tuned, decimated signal before the channel filter.
+    pub fn spectrum(&self) -> &PowerSpectrum {
+        &self.spectrum
+    }
+
+    /// The half-width of the band the decimation keeps flat, in Hz.
+    pub fn flat_band_hz(&self) -> f64 {
+        (NOISE_VIEW * self.config.channel_hz).min(0.45 * self.detection_rate)
+    }
+
+    /// The strongest spectral line within ±`search_hz` of the tuned frequency.
+    pub fn find_carrier(&self, search_hz: f64) -> Option<CarrierPeak> {
+        find_carrier(&self.spectrum, 0.0, search_hz)
+    }
+
+    /// Carrier over noise in 2 × `message_bandwidth_hz`, in dB, noise from the flat band.
+    pub fn cnr_db(&self, carrier: &CarrierPeak, message_bandwidth_hz: f64) -> Option<f64> {
+        let cnr = estimate_cnr_db_within(
+            &self.spectrum,
+            carrier,
+            message_bandwidth_hz,
+            self.flat_band_hz(),
+        );
+        cnr.is_finite().then_some(cnr)
+    }
+
+    /// Output samples until the filters have settled: twice their delay, plus five time
+    /// constants of the centre-spike blocker when it is in use.
+    pub fn settling_samples(&self) -> usize {
+        let factor = self.config.input_rate / self.detection_rate;
+        let filters = self.decimator.delay() / factor + self.channel.delay();
+        let spike = if self.spike.is_some() {
+            5.0 * self.detection_rate / (std::f64::consts::TAU * SPIKE_CORNER_HZ)
+        } else {
+            0.0
+        };
+        (2.0 * filters + spike).ceil() as usize
+    }
+
+    /// Exactly how many outputs the next `input_len` inputs give from the current state.
+    pub fn output_len(&self, input_len: usize) -> usize {
+        self.decimator.output_len(input_len)
+    }
+
+    fn process_piece(&mut self, input: &[Complex32], output: &mut [Complex32]) -> usize {
+        let input = match self.spike.as_mut() {
+            Some(dc) => {
+                dc.process(input, &mut self.unspiked[..input.len()]);
+                &self.unspiked[..input.len()]
+            }
+            None => input,
+        };
+        let tuned = &mut self.tuned[..input.len()];
+        self.mixer.process(input, tuned);
+        let (_, n) = self.decimator.process(tuned, &mut self.decimated);
+        self.spectrum.push(&self.decimated[..n]);
+        self.channel.process(&self.decimated[..n], &mut output[..n]);
+        n
+    }
+}
+
+impl Block for ChannelFrontEnd {
+    type Input = Complex32;
+    type Output = Complex32;
+
+    fn process(&mut self, input: &[Complex32], output: &mut [Complex32]) -> (usize, usize) {
+        let mut consumed = 0;
+        let mut produced = 0;
+        while consumed < input.len() {
+            let n = CHUNK.min(input.len() - consumed);
+            if self.output_len(n) > output.len() - produced {
+                break;
+            }
+            produced += self.process_piece(&input[consumed..consumed + n], &mut output[produced..]);
+            consumed += n;
+        }
+        (consumed, produced)
+    }
+
+    fn max_output_len(&self, input_len: usize) -> usize {
+        pieces_bound(input_len, CHUNK, |n| self.decimator.max_output_len(n))
+    }
+
+    fn delay(&self) -> f64 {
+        let factor = self.config.input_rate / self.detection_rate;
+        self.decimator.delay() + self.channel.delay() * factor
+    }
+
+    fn reset(&mut self) {
+        if let Some(dc) = self.spike.as_mut() {
+            dc.reset();
+        }
+        self.mixer.reset();
+        self.decimator.reset();
+        self.channel.reset();
+        self.spectrum.reset();
+    }
+}
+
+/// Checks input rate and tuning: the offset inside ±rate/2 and the channel inside 90 % of it.
+pub fn validate_tuning(input_rate: f64, offset_hz: f64, channel_hz: f64) -> Result<()> {
+    if !(input_rate.is_finite() && input_rate > 0.0) {
+        return Err(Error::parameter(
+            "--rate",
+            input_rate,
+            "the sample rate must be a positive number of Hz",
+        ));
+    }
+    let nyquist = input_rate / 2.0;
+    if !offset_hz.is_finite() || offset_hz.abs() >= nyquist {
+        return Err(Error::parameter(
+            "--offset",
+            offset_hz,
+            format!("outside ±rate/2 (±{nyquist} Hz) of the recording"),
+        ));
+    }
+    if !(channel_hz.is_finite() && channel_hz > 0.0) {
+        return Err(Error::parameter(
+            "--bandwidth",
+            channel_hz,
+            "must be a positive number of Hz",
+        ));
+    }
+    if offset_hz.abs() + channel_hz >= 0.9 * nyquist {
+        return Err(Error::parameter(
+            "--bandwidth",
+            channel_hz,
+            format!("the channel (offset ± bandwidth) does not fit inside 90 % of ±rate/2 (±{nyquist} Hz)"),
+        ));
+    }
+    Ok(())
+}
+
+/// The centre spike of a direct-conversion front end only needs removing when it lands inside
+/// the channel; a carrier within 100 Hz of the centre would be removed with it, so then not.
+fn centre_spike_blocker(config: &FrontEndConfig) -> Result<Option<DcBlocker<Complex32>>> {
+    let offset = config.offset_hz.abs();
+    if offset >= 100.0 && offset <= 2.0 * config.channel_hz {
+        Ok(Some(DcBlocker::new(SPIKE_CORNER_HZ, config.input_rate)?))
+    } else {
+        Ok(None)
+    }
+}
+
+/// The channel filter: pass ±channel, stop from 1.3 × channel (common practice, no source).
+fn channel_taps(channel_hz: f64, rate: f64) -> Result<Vec<f32>> {
+    let pass = channel_hz.min(0.45 * rate);
+    design_lowpass(&LowpassSpec {
+        passband_hz: pass,
+        stopband_hz: (1.3 * pass).min(0.5 * rate),
+        attenuation_db: 60.0,
+        sample_rate: rate,
+    })
+}
+
+/// Spectrum length giving bins of about 10 Hz or finer, within 1024..=16384.
+fn spectrum_len(rate: f64) -> usize {
+    ((rate / 10.0).ceil() as usize)
+        .next_power_of_two()
+        .clamp(1024, 16384)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::block::{process_in_chunks, process_to_vec};
+
+    fn config() -> FrontEndConfig {
+        FrontEndConfig {
+            input_rate: 960_000.0,
+            offset_hz: -123_456.0,
+            channel_hz: 5_000.0,
+            min_detection_rate: 48_000.0,
+        }
+    }
+
+    fn tone(freq: f64, len: usize) -> Vec<Complex32> {
+        (0..len)
+            .map(|n| {
+                Complex32::from_polar(
+                    0.5,
+                    (std::f64::consts::TAU * freq * n as f64 / 960_000.0) as f32,
+                )
+            })
+            .collect()
+    }
+
+    #[test]
+    fn a_line_at_the_offset_comes_out_at_zero_hertz() {
+        let mut fe = ChannelFrontEnd::new(config()).unwrap();
+        let out = process_to_vec(&mut fe, &tone(-123_456.0 + 700.0, 192_000));
+        assert_eq!(out.len(), 9600);
+        let peak = fe.find_carrier(2000.0).unwrap();
+        assert!((peak.frequency_hz - 700.0).abs() < 0.5, "{peak:?}");
+        // 0.5 amplitude, unity passband gain: the settled output keeps |y| = 0.5.
+        let worst = out[2000..]
+            .iter()
+            .map(|y| (y.norm() - 0.5).abs())
+            .fold(0.0f32, f32::max);
+        assert!(worst < 1e-3, "ripple {worst}");
+    }
+
+    #[test]
+    fn a_line_outside_the_channel_is_rejected() {
+        let mut fe = ChannelFrontEnd::new(config()).unwrap();
+        let out = process_to_vec(&mut fe, &tone(-123_456.0 + 9_000.0, 192_000));
+        let worst = out[2000..].iter().map(|y| y.norm()).fold(0.0f32, f32::max);
+        assert!(worst < 0.5e-3, "leak {worst} (60 dB below 0.5)");
+    }
+
+    #[test]
+    fn chunk_invariant() {
+        let x = tone(-120_000.0, 100_000);
+        let whole = process_to_vec(&mut ChannelFrontEnd::new(config()).unwrap(), &x);
+        for sizes in [vec![1usize, 7, 1024], vec![8192], vec![10_007, 3]] {
+            let pieces =
+                process_in_chunks(&mut ChannelFrontEnd::new(config()).unwrap(), &x, &sizes);
+            assert_eq!(pieces, whole, "sizes {sizes:?}");
+        }
+    }
+
+    #[test]
+    fn audio_stage_is_chunk_invariant() {
+        use crate::demod::AudioStage;
+        let x: Vec<f32> = (0..20_000).map(|n| (n as f32 * 0.05).sin() + 0.3).collect();
+        let make = || AudioStage::new(51_200.0, 48_000.0, 5_000.0, 4096).unwrap();
+        let whole = process_in_chunks(&mut make(), &x, &[4096]);
+        for sizes in [vec![1usize, 7, 1024], vec![4095, 2]] {
+            assert_eq!(
+                process_in_chunks(&mut make(), &x, &sizes),
+                whole,
+                "sizes {sizes:?}"
+            );
+        }
+    }
+}
