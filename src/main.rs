@@ -1,7 +1,8 @@
 //! `amrx`: the command-line receiver. Argument parsing and wiring only; the work is in the
 //! library.
 
-use amrx::demod::Mode;
+use amrx::demod::{LoopSettings, Mode, ReceiverOptions, Sideband, SsbMethod};
+use amrx::dsp::AgcSettings;
 use amrx::io::{InputOptions, SampleFormat};
 use amrx::pipeline::demo::{default_demo_dir, run_demo, DemoRow};
 use amrx::pipeline::{info, run_demod, AudioTarget, DemodRequest, Tuning};
@@ -73,6 +74,24 @@ struct DemodArgs {
     /// Sideband to keep (sam only).
     #[arg(long, value_enum)]
     sideband: Option<SidebandArg>,
+    /// Single-sideband method (usb, lsb, isb).
+    #[arg(long, value_enum)]
+    ssb_method: Option<SsbMethodArg>,
+    /// Lock to a pilot or full carrier when one is present (usb, lsb).
+    #[arg(long)]
+    carrier_lock: bool,
+    /// Carrier-loop noise bandwidth in Hz (modes with a carrier loop).
+    #[arg(long)]
+    loop_bandwidth: Option<f64>,
+    /// Carrier-loop damping (modes with a carrier loop).
+    #[arg(long)]
+    loop_damping: Option<f64>,
+    /// Gain control (the mode's default when absent).
+    #[arg(long, value_enum, conflicts_with = "gain")]
+    agc: Option<AgcArg>,
+    /// Fixed audio gain in dB instead of AGC.
+    #[arg(long, allow_negative_numbers = true)]
+    gain: Option<f64>,
     /// Output WAV file, or - for raw f32 on standard output.
     #[arg(long)]
     out: PathBuf,
@@ -104,6 +123,22 @@ enum ModeArg {
 enum SidebandArg {
     Upper,
     Lower,
+}
+
+#[derive(ValueEnum, Clone, Copy, Debug)]
+enum SsbMethodArg {
+    Phasing,
+    Weaver,
+}
+
+#[derive(ValueEnum, Clone, Copy, Debug)]
+enum AgcArg {
+    /// Fast attack with hang, for speech.
+    Speech,
+    /// Slow, for broadcast programme.
+    Slow,
+    /// Unity gain.
+    Off,
 }
 
 fn parse_format(name: &str) -> Result<SampleFormat, String> {
@@ -192,8 +227,7 @@ fn demod(args: DemodArgs) -> Result<(), String> {
         input_options: args.input_options.options(),
         mode,
         tuning,
-        audio_rate: args.audio_rate,
-        bandwidth_hz: args.bandwidth,
+        options: receiver_options(&args),
         audio,
         report: args.report.clone(),
     };
@@ -208,6 +242,35 @@ fn demod(args: DemodArgs) -> Result<(), String> {
         }
     }
     Ok(())
+}
+
+fn receiver_options(args: &DemodArgs) -> ReceiverOptions {
+    let agc = match (args.gain, args.agc) {
+        (Some(gain_db), _) => Some(AgcSettings::Fixed { gain_db }),
+        (None, Some(AgcArg::Speech)) => Some(AgcSettings::SPEECH),
+        (None, Some(AgcArg::Slow)) => Some(AgcSettings::SLOW),
+        (None, Some(AgcArg::Off)) => Some(AgcSettings::OFF),
+        (None, None) => None,
+    };
+    ReceiverOptions {
+        audio_rate: args.audio_rate,
+        bandwidth_hz: args.bandwidth,
+        sideband: args.sideband.map(|s| match s {
+            SidebandArg::Upper => Sideband::Upper,
+            SidebandArg::Lower => Sideband::Lower,
+        }),
+        ssb_method: match args.ssb_method {
+            Some(SsbMethodArg::Phasing) => SsbMethod::Phasing,
+            Some(SsbMethodArg::Weaver) => SsbMethod::Weaver,
+            None => SsbMethod::default(),
+        },
+        carrier_lock: args.carrier_lock,
+        loop_settings: LoopSettings {
+            bandwidth_hz: args.loop_bandwidth,
+            damping: args.loop_damping,
+        },
+        agc,
+    }
 }
 
 fn progress_bar(quiet: bool) -> ProgressBar {

@@ -199,6 +199,10 @@ impl Receiver for AmReceiver {
         self.config.audio_rate
     }
 
+    fn bandwidth_hz(&self) -> f64 {
+        self.config.bandwidth_hz
+    }
+
     fn measurements(&self) -> Measurements {
         let mut m = Measurements::default();
         self.carrier_measurements(&mut m);

@@ -5,6 +5,8 @@
 
 pub mod am;
 pub mod audio_stage;
+pub mod build;
+pub mod config;
 pub mod envelope;
 pub mod front_end;
 pub mod mode;
@@ -12,6 +14,8 @@ pub mod receiver;
 
 pub use am::{AmConfig, AmReceiver};
 pub use audio_stage::AudioStage;
+pub use build::build_receiver;
+pub use config::{LoopSettings, ReceiverConfig, ReceiverOptions, Sideband, SsbMethod};
 pub use envelope::EnvelopeDetector;
 pub use front_end::{ChannelFrontEnd, FrontEndConfig};
 pub use mode::Mode;

@@ -26,6 +26,8 @@ pub trait Receiver: Block<Input = Complex32, Output = f32> + Send {
     fn audio_channels(&self) -> usize;
     /// Audio sample rate in Hz.
     fn audio_rate(&self) -> f64;
+    /// Audio (message) bandwidth in Hz.
+    fn bandwidth_hz(&self) -> f64;
     /// Measurements so far (cheap enough to call at the end of a run, not per sample).
     fn measurements(&self) -> Measurements;
 }

@@ -1,5 +1,6 @@
 //! DSP primitives: oscillators, mixers, FIR design and filtering, decimation and resampling.
 
+pub mod agc;
 pub mod dc_blocker;
 pub mod decimator;
 mod dot;
@@ -14,6 +15,7 @@ pub mod resampler;
 #[cfg(test)]
 mod test_util;
 
+pub use agc::{Agc, AgcSettings};
 pub use dc_blocker::{dc_blocker_pole, DcBlocker};
 pub use decimator::FirDecimator;
 pub use fir::{audio_lowpass, Fir};

@@ -2,7 +2,7 @@
 
 use super::report::Report;
 use super::runtime::{run_stream, RuntimeConfig};
-use crate::demod::{AmConfig, AmReceiver, Mode, Receiver};
+use crate::demod::{build_receiver, Mode, Receiver, ReceiverConfig, ReceiverOptions};
 use crate::io::{open_input, AudioSink, InputOptions, IqSource, RawAudioSink, WavAudioSink};
 use crate::{Error, Result};
 use std::path::{Path, PathBuf};
@@ -44,10 +44,8 @@ pub struct DemodRequest {
     pub mode: Mode,
     /// Tuning.
     pub tuning: Tuning,
-    /// Audio rate in Hz.
-    pub audio_rate: f64,
-    /// Audio bandwidth in Hz; the mode's default when `None`.
-    pub bandwidth_hz: Option<f64>,
+    /// Audio rate, bandwidth, sideband, loop and AGC options.
+    pub options: ReceiverOptions,
     /// Audio destination.
     pub audio: AudioTarget,
     /// Where to write the JSON report, if anywhere.
@@ -62,8 +60,7 @@ impl DemodRequest {
             input_options: InputOptions::default(),
             mode,
             tuning: Tuning::Centre,
-            audio_rate: AmConfig::DEFAULT_AUDIO_RATE,
-            bandwidth_hz: None,
+            options: ReceiverOptions::default(),
             audio,
             report: None,
         }
@@ -76,7 +73,12 @@ impl DemodRequest {
 pub fn run_demod(request: &DemodRequest, progress: &(dyn Fn(u64) + Sync)) -> Result<Report> {
     let mut source = open_input(&request.input, &request.input_options)?;
     let offset_hz = resolve_offset(request.tuning, source.as_ref())?;
-    let mut receiver = build_receiver(request, source.info().sample_rate, offset_hz)?;
+    let config = ReceiverConfig {
+        input_rate: source.info().sample_rate,
+        offset_hz,
+        options: request.options,
+    };
+    let mut receiver = build_receiver(request.mode, &config)?;
     let mut sink = open_sink(&request.audio, receiver.as_ref())?;
     let mut read_so_far = 0u64;
     let totals = run_stream(
@@ -120,30 +122,6 @@ pub fn resolve_offset(tuning: Tuning, source: &dyn IqSource) -> Result<f64> {
     }
 }
 
-/// The receiver for the request's mode.
-pub fn build_receiver(
-    request: &DemodRequest,
-    input_rate: f64,
-    offset_hz: f64,
-) -> Result<Box<dyn Receiver>> {
-    match request.mode {
-        Mode::Am => {
-            let config = AmConfig {
-                input_rate,
-                offset_hz,
-                bandwidth_hz: request
-                    .bandwidth_hz
-                    .unwrap_or(AmConfig::DEFAULT_BANDWIDTH_HZ),
-                audio_rate: request.audio_rate,
-            };
-            Ok(Box::new(AmReceiver::new(config)?))
-        }
-        other => Err(Error::NotYetAvailable {
-            what: format!("mode '{other}'"),
-        }),
-    }
-}
-
 fn open_sink(target: &AudioTarget, receiver: &dyn Receiver) -> Result<Box<dyn AudioSink>> {
     Ok(match target {
         AudioTarget::Wav { path, pcm16 } => {
@@ -173,9 +151,7 @@ fn make_report(
         input: display_path(&request.input),
         input_rate: source.info().sample_rate,
         audio_rate: receiver.audio_rate(),
-        bandwidth_hz: request
-            .bandwidth_hz
-            .unwrap_or(AmConfig::DEFAULT_BANDWIDTH_HZ),
+        bandwidth_hz: receiver.bandwidth_hz(),
         tuned_offset_hz: offset_hz,
         samples_in,
         samples_out: samples_out / channels as u64,
