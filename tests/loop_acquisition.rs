@@ -78,8 +78,8 @@ fn lock_time_for_a_small_offset_matches_the_loop_design() {
             let truth = TAU * step_hz * n as f64 / FS;
             let x = Complex32::from_polar(1.0, truth as f32);
             pll.next_sample(x);
-            let error = (truth - pll.phase() + std::f64::consts::PI).rem_euclid(TAU)
-                - std::f64::consts::PI;
+            let error =
+                (truth - pll.phase() + std::f64::consts::PI).rem_euclid(TAU) - std::f64::consts::PI;
             small.push(error.abs() < 0.1);
             locked.push(pll.is_locked());
         }
