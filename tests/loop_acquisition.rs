@@ -111,9 +111,9 @@ fn model_settling_time(delta_omega: f64, omega_n: f64, zeta: f64, tolerance: f64
     };
     let dt = 1e-5;
     (0..200_000)
+        .rev()
         .map(|k| k as f64 * dt)
-        .filter(|&t| phi(t).abs() >= tolerance)
-        .last()
+        .find(|&t| phi(t).abs() >= tolerance)
         .unwrap_or(0.0)
 }
 
