@@ -2,6 +2,7 @@
 
 use super::config::ReceiverConfig;
 use super::{AmConfig, AmReceiver, Mode, Receiver};
+use super::{DsbConfig, DsbReceiver, SamConfig, SamReceiver};
 use crate::{Error, Result};
 
 /// The receiver for `mode`.
@@ -26,6 +27,8 @@ pub fn build_receiver(mode: Mode, config: &ReceiverConfig) -> Result<Box<dyn Rec
             };
             Ok(Box::new(AmReceiver::new(am)?))
         }
+        Mode::Sam => Ok(Box::new(SamReceiver::new(SamConfig::from_options(config))?)),
+        Mode::Dsb => Ok(Box::new(DsbReceiver::new(DsbConfig::from_options(config))?)),
         other => Err(Error::NotYetAvailable {
             what: format!("mode '{other}'"),
         }),

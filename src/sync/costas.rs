@@ -30,6 +30,13 @@ pub struct CostasLoop {
     started: bool,
     i_power: f64,
     q_power: f64,
+    /// Zero-started arm powers for the lock detector (the detector's seeded ones weigh the
+    /// first sample like 1/α samples and declared lock at once), and samples seen.
+    lock_i_power: f64,
+    lock_q_power: f64,
+    samples: u64,
+    /// Samples before the lock detector may decide: one loop time constant 1/B_L.
+    warm_up: u64,
     locked: bool,
 }
 
@@ -63,6 +70,10 @@ impl CostasLoop {
             started: false,
             i_power: 0.0,
             q_power: 0.0,
+            lock_i_power: 0.0,
+            lock_q_power: 0.0,
+            samples: 0,
+            warm_up: (config.sample_rate / config.loop_bandwidth_hz).ceil() as u64,
             locked: false,
             config,
         })
@@ -99,6 +110,9 @@ impl CostasLoop {
             self.i_power += self.alpha * (i * i - self.i_power);
             self.q_power += self.alpha * (q * q - self.q_power);
         }
+        self.lock_i_power += self.alpha * (i * i - self.lock_i_power);
+        self.lock_q_power += self.alpha * (q * q - self.lock_q_power);
+        self.samples += 1;
         let metric = self.lock_metric();
         self.locked = if self.locked {
             metric > LOCK_OFF
@@ -107,11 +121,13 @@ impl CostasLoop {
         };
     }
 
-    /// The averaged cos 2φ_err: (I² − Q²)/(I² + Q²), near 1 when locked on a clean signal.
+    /// The averaged cos 2φ_err: (I² − Q²)/(I² + Q²), near 1 when locked on a clean signal; 0
+    /// until the averages span one loop time constant. The zero-started averages share one
+    /// start-up bias, which cancels in the ratio.
     pub fn lock_metric(&self) -> f64 {
-        let total = self.i_power + self.q_power;
-        if total > 0.0 {
-            (self.i_power - self.q_power) / total
+        let total = self.lock_i_power + self.lock_q_power;
+        if self.samples >= self.warm_up && total > 0.0 {
+            (self.lock_i_power - self.lock_q_power) / total
         } else {
             0.0
         }
@@ -212,6 +228,26 @@ mod tests {
             "{}",
             costas.frequency_hz()
         );
+    }
+
+    /// Regression: the lock detector used to start from the first sample's power on the
+    /// in-phase arm and declared lock on the first sample of pure noise.
+    #[test]
+    fn noise_is_not_reported_locked_at_any_sample() {
+        use rand::rngs::StdRng;
+        use rand::SeedableRng;
+        use rand_distr::{Distribution, Normal};
+        let normal = Normal::new(0.0, 0.5f64.sqrt()).unwrap();
+        let mut rng = StdRng::seed_from_u64(4);
+        let mut costas = CostasLoop::new(PllConfig::new(FS, 30.0)).unwrap();
+        for n in 0..48_000 {
+            let x = Complex32::new(
+                normal.sample(&mut rng) as f32,
+                normal.sample(&mut rng) as f32,
+            );
+            costas.next_sample(x);
+            assert!(!costas.is_locked(), "locked at sample {n}");
+        }
     }
 
     #[test]

@@ -1,9 +1,11 @@
 //! Carrier recovery: second-order loop design, a carrier PLL and a Costas loop.
 
+pub mod acquisition;
 pub mod costas;
 pub mod loop_filter;
 pub mod pll;
 
+pub use acquisition::{CarrierAcquisition, CarrierKind, CarrierLoop};
 pub use costas::CostasLoop;
 pub use loop_filter::LoopGains;
 pub use pll::{CarrierPll, PllConfig};

@@ -55,10 +55,17 @@ pub struct CarrierPll {
     phase: f64,
     integrator: f64,
     arms: ArmAverages,
+    /// Samples before the lock detector may decide: one loop time constant 1/B_L.
+    warm_up: u64,
     locked: bool,
 }
 
 /// One-pole averages of the de-rotated signal's arms.
+///
+/// The detector's averages start from the first sample's level (so its gain is sane at once);
+/// the lock detector keeps its own averages that start from zero and are bias-corrected by the
+/// weight seen so far, because a seeded start weighs the first sample like 1/α samples and made
+/// the detector declare lock on the first sample of pure noise.
 #[derive(Debug, Clone, Copy)]
 struct ArmAverages {
     alpha: f64,
@@ -67,6 +74,12 @@ struct ArmAverages {
     quadrature: f64,
     magnitude: f64,
     power: f64,
+    /// Zero-started sums for the lock statistic, and (1 − α)^samples.
+    lock_in_phase: f64,
+    lock_quadrature: f64,
+    lock_power: f64,
+    decay: f64,
+    samples: u64,
 }
 
 impl ArmAverages {
@@ -78,6 +91,11 @@ impl ArmAverages {
             quadrature: 0.0,
             magnitude: 0.0,
             power: 0.0,
+            lock_in_phase: 0.0,
+            lock_quadrature: 0.0,
+            lock_power: 0.0,
+            decay: 1.0,
+            samples: 0,
         }
     }
 
@@ -86,6 +104,12 @@ impl ArmAverages {
         let (re, im) = (f64::from(y.re), f64::from(y.im));
         let power = re * re + im * im;
         let magnitude = power.sqrt();
+        let a = self.alpha;
+        self.lock_in_phase += a * (re - self.lock_in_phase);
+        self.lock_quadrature += a * (im - self.lock_quadrature);
+        self.lock_power += a * (power - self.lock_power);
+        self.decay *= 1.0 - a;
+        self.samples += 1;
         if !self.started {
             // Start from the first sample's level so the detector's gain is sane at once.
             *self = ArmAverages {
@@ -98,7 +122,6 @@ impl ArmAverages {
             };
             return;
         }
-        let a = self.alpha;
         self.in_phase += a * (re - self.in_phase);
         self.quadrature += a * (im - self.quadrature);
         self.magnitude += a * (magnitude - self.magnitude);
@@ -115,12 +138,31 @@ impl ArmAverages {
     }
 
     /// (Ī)² over the variance of the average: large when a carrier is locked, χ²(1) for noise.
-    fn lock_statistic(&self) -> f64 {
-        let spread =
-            (self.power - self.in_phase * self.in_phase - self.quadrature * self.quadrature)
-                .max(f64::MIN_POSITIVE);
-        let n_eff = (2.0 - self.alpha) / self.alpha;
-        self.in_phase * self.in_phase.abs() * n_eff / spread
+    ///
+    /// From the zero-started averages: after t samples the weights sum to S1 = 1 − (1 − α)^t
+    /// and their squares to S2 = α(1 − (1 − α)^{2t})/(2 − α), so the bias-corrected mean is
+    /// sum/S1 and its variance σ²·S2/S1² (σ² the per-sample spread). Zero until the averages
+    /// span one loop time constant (`min_samples`): a spread from a handful of samples is
+    /// meaningless.
+    fn lock_statistic(&self, min_samples: u64) -> f64 {
+        if self.samples < min_samples.max(2) {
+            return 0.0;
+        }
+        let s1 = 1.0 - self.decay;
+        let s2 = self.alpha * (1.0 - self.decay * self.decay) / (2.0 - self.alpha);
+        let (i, q, p) = (
+            self.lock_in_phase / s1,
+            self.lock_quadrature / s1,
+            self.lock_power / s1,
+        );
+        let spread = (p - i * i - q * q).max(f64::MIN_POSITIVE);
+        i * i.abs() * s1 * s1 / (spread * s2)
+    }
+
+    /// The bias-corrected in-phase and quadrature averages of the lock detector.
+    fn lock_arms(&self) -> (f64, f64) {
+        let s1 = (1.0 - self.decay).max(f64::MIN_POSITIVE);
+        (self.lock_in_phase / s1, self.lock_quadrature / s1)
     }
 }
 
@@ -153,6 +195,7 @@ impl CarrierPll {
             phase: 0.0,
             integrator: 0.0,
             arms: ArmAverages::new(alpha),
+            warm_up: (config.sample_rate / config.loop_bandwidth_hz).ceil() as u64,
             locked: false,
         })
     }
@@ -177,12 +220,11 @@ impl CarrierPll {
 
     #[inline]
     fn update_lock(&mut self) {
-        let arms = &self.arms;
-        let in_phase_leads = arms.in_phase > 2.0 * arms.quadrature.abs();
+        let (in_phase, quadrature) = self.arms.lock_arms();
+        let statistic = self.arms.lock_statistic(self.warm_up);
         if self.locked {
-            self.locked =
-                arms.in_phase > arms.quadrature.abs() && arms.lock_statistic() > LOCK_OFF_STATISTIC;
-        } else if in_phase_leads && arms.lock_statistic() > LOCK_ON_STATISTIC {
+            self.locked = in_phase > quadrature.abs() && statistic > LOCK_OFF_STATISTIC;
+        } else if in_phase > 2.0 * quadrature.abs() && statistic > LOCK_ON_STATISTIC {
             self.locked = true;
         }
     }
@@ -205,7 +247,7 @@ impl CarrierPll {
     /// The lock detector's statistic: the squared in-phase average over its variance (about 1
     /// on noise; lock is declared above 50).
     pub fn lock_metric(&self) -> f64 {
-        self.arms.lock_statistic()
+        self.arms.lock_statistic(self.warm_up)
     }
 
     /// The averaged carrier amplitude on the in-phase arm.
@@ -370,6 +412,19 @@ mod tests {
         let out = process_to_vec(&mut pll, &x);
         assert!(!pll.is_locked(), "lock metric {}", pll.lock_metric());
         assert!(out.iter().all(|y| y.re.is_finite() && y.im.is_finite()));
+    }
+
+    /// Regression: the lock detector used to start from the first sample's level, which weighs
+    /// that sample like 1/α samples, and declared lock on the first sample of pure noise.
+    #[test]
+    fn noise_is_not_reported_locked_at_any_sample() {
+        let mut x = vec![Complex32::default(); 48_000];
+        add_noise(&mut x, 1.0, 21);
+        let mut pll = CarrierPll::new(PllConfig::new(FS, 30.0)).unwrap();
+        for (n, &s) in x.iter().enumerate() {
+            pll.next_sample(s);
+            assert!(!pll.is_locked(), "locked at sample {n}");
+        }
     }
 
     #[test]
