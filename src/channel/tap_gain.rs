@@ -108,7 +108,7 @@ impl TapGain {
 
     /// The next sample at the output rate (linear interpolation between low-rate samples).
     #[inline]
-    pub fn next(&mut self) -> Complex64 {
+    pub fn next_sample(&mut self) -> Complex64 {
         if self.phase == self.factor {
             self.previous = self.current;
             self.current = self.next_low_rate();
@@ -122,7 +122,7 @@ impl TapGain {
     /// Writes output-rate gains.
     pub fn fill(&mut self, out: &mut [Complex32]) {
         for g in out.iter_mut() {
-            let v = self.next();
+            let v = self.next_sample();
             *g = Complex32::new(v.re as f32, v.im as f32);
         }
     }

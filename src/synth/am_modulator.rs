@@ -55,7 +55,7 @@ impl AmModulator {
     #[inline]
     fn next(&mut self, m: f32) -> Complex32 {
         let m = if m.is_finite() { f64::from(m) } else { 0.0 };
-        to_c32(self.carrier.next() * (self.carrier_amplitude * (1.0 + self.k_a * m)))
+        to_c32(self.carrier.next_sample() * (self.carrier_amplitude * (1.0 + self.k_a * m)))
     }
 }
 

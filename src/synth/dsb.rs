@@ -38,7 +38,7 @@ impl Block for DsbModulator {
         let n = input.len().min(output.len());
         for (y, m) in output.iter_mut().zip(input).take(n) {
             let m = if m.is_finite() { f64::from(*m) } else { 0.0 };
-            *y = to_c32(self.carrier.next() * (self.amplitude * m));
+            *y = to_c32(self.carrier.next_sample() * (self.amplitude * m));
         }
         (n, n)
     }

@@ -65,17 +65,21 @@ pub enum MessageSpec {
         /// Upper band edge W, Hz.
         bandwidth_hz: f64,
         /// Lower band edge, Hz (default 0.1·W).
+        #[serde(default, skip_serializing_if = "Option::is_none")]
         low_hz: Option<f64>,
         /// Peak/RMS, linear, in [1.5, 5] (default 3).
+        #[serde(default, skip_serializing_if = "Option::is_none")]
         crest_factor: Option<f64>,
     },
     /// Audio from a WAV file, see [`WavMessage`].
     Wav {
         /// The file; relative paths are taken from the scene file's folder.
         path: String,
-        /// Upper band edge W, Hz (default 4000, capped below 0.45 × the file's rate).
+        /// Upper band edge W, Hz (default 4000; must lie below 0.45 × the file's rate).
+        #[serde(default, skip_serializing_if = "Option::is_none")]
         bandwidth_hz: Option<f64>,
         /// Lower band edge, Hz (default 100).
+        #[serde(default, skip_serializing_if = "Option::is_none")]
         low_hz: Option<f64>,
     },
 }

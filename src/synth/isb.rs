@@ -63,7 +63,7 @@ impl Block for IsbModulator {
             let l = self.lower.next(f64::from(*lo)).conj();
             let u = self.upper.next(f64::from(*up));
             let env = (l + u) * self.amplitude + self.carrier_amplitude;
-            *y = to_c32(env * self.carrier.next());
+            *y = to_c32(env * self.carrier.next_sample());
         }
         (n, n)
     }

@@ -41,7 +41,7 @@ impl Rotator {
 
     /// The carrier sample for the current phase, then advances one sample.
     #[inline]
-    pub fn next(&mut self) -> Complex64 {
+    pub fn next_sample(&mut self) -> Complex64 {
         let (sin, cos) = (std::f64::consts::TAU * self.phase).sin_cos();
         let v = self.phase + self.step;
         self.phase = v - v.floor();
@@ -65,7 +65,7 @@ mod tests {
         let mut r = Rotator::new(f, fs).unwrap();
         for n in 0..100_000 {
             let want = Complex64::from_polar(1.0, std::f64::consts::TAU * f * n as f64 / fs);
-            assert!((r.next() - want).norm() < 1e-9, "n={n}");
+            assert!((r.next_sample() - want).norm() < 1e-9, "n={n}");
         }
         assert!(Rotator::new(24_001.0, fs).is_err());
         assert!(Rotator::new(0.0, 0.0).is_err());

@@ -91,7 +91,7 @@ impl Block for SsbModulator {
                 self.carrier_amplitude + self.amplitude * z.re,
                 self.sign * self.amplitude * z.im,
             );
-            *y = to_c32(envelope * self.carrier.next());
+            *y = to_c32(envelope * self.carrier.next_sample());
         }
         (n, n)
     }

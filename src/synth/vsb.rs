@@ -152,7 +152,7 @@ impl Block for VsbModulator {
         for (y, m) in output.iter_mut().zip(input).take(n) {
             let m = if m.is_finite() { f64::from(*m) } else { 0.0 };
             let x = Complex64::new(self.carrier_amplitude * (1.0 + self.mu * m), 0.0);
-            *y = to_c32(self.shaping.next(x) * self.carrier.next());
+            *y = to_c32(self.shaping.next(x) * self.carrier.next_sample());
         }
         (n, n)
     }
