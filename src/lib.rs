@@ -22,6 +22,7 @@
 //! None yet; every feature will be listed here.
 
 pub mod block;
+pub mod channel;
 pub mod demod;
 pub mod dsp;
 pub mod error;

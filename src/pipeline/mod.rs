@@ -5,6 +5,7 @@ pub mod info;
 pub mod job;
 pub mod report;
 pub mod runtime;
+pub mod synth_job;
 
 pub use job::{run_demod, AudioTarget, DemodRequest, Tuning};
 pub use report::Report;
