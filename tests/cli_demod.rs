@@ -259,3 +259,64 @@ fn real_if_recording() {
     let depth = json["modulation_depth"]["positive"].as_f64().unwrap();
     assert!((depth - 0.5).abs() < 0.01, "{json}");
 }
+
+/// `synth` writes a scene as SigMF; `demod` then receives its emissions.
+#[test]
+fn synth_then_demod_the_carrier_modes() {
+    let dir = scratch_dir("cli-synth");
+    let base = dir.join("hf");
+    let scene = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/data/scenes/hf_mix.json");
+    let out = ok(&["synth", scene, "--out", &base.display().to_string()]);
+    assert!(String::from_utf8_lossy(&out.stdout).contains("BRAVO DSB"));
+    let meta = base.with_extension("sigmf-meta").display().to_string();
+    for (mode, carrier) in [("am", "7070000"), ("sam", "7070000"), ("dsb", "7100000")] {
+        let wav = dir.join(format!("{mode}.wav")).display().to_string();
+        let report = dir.join(format!("{mode}.json"));
+        ok(&[
+            "demod",
+            &meta,
+            "--mode",
+            mode,
+            "--carrier",
+            carrier,
+            "--out",
+            &wav,
+            "--report",
+            &report.display().to_string(),
+        ]);
+        let json: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(&report).unwrap()).unwrap();
+        let found = json["carrier_offset_hz"].as_f64().unwrap() + 7_150_000.0;
+        assert!(
+            (found - carrier.parse::<f64>().unwrap()).abs() < 2.0,
+            "{mode}: {json}"
+        );
+        if mode != "am" {
+            assert_eq!(json["locked"], true, "{mode}: {json}");
+        }
+    }
+}
+
+#[test]
+fn synth_rejects_a_bad_scene_naming_the_field() {
+    let dir = scratch_dir("cli-synth-bad");
+    let scene = dir.join("bad.json");
+    std::fs::write(
+        &scene,
+        r#"{"sample_rate": 48000, "centre_frequency": 0, "duration_s": 1, "emissions": [{"label": "X", "mode": "am", "offset_hz": 1000, "amplitude": 0.1, "mu": -0.5, "message": {"type": "tone", "frequency_hz": 400}}]}"#,
+    )
+    .unwrap();
+    let out = amrx(&[
+        "synth",
+        &scene.display().to_string(),
+        "--out",
+        &dir.join("x").display().to_string(),
+    ]);
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(!out.status.success());
+    assert_eq!(stderr.lines().count(), 1, "{stderr}");
+    assert!(
+        stderr.contains("bad.json") && stderr.contains("mu"),
+        "{stderr}"
+    );
+}

@@ -263,7 +263,8 @@ impl Block for WattersonChannel {
             let mut sum = Complex64::default();
             for path in &mut self.paths {
                 let delayed = self.delay_line[(self.pos + len - path.delay) % len];
-                sum += delayed * path.gain.next_sample() * path.shift.next_sample() * path.amplitude;
+                sum +=
+                    delayed * path.gain.next_sample() * path.shift.next_sample() * path.amplitude;
             }
             self.pos = (self.pos + 1) % len;
             *y = Complex32::new(sum.re as f32, sum.im as f32);
