@@ -67,6 +67,25 @@ pub fn run_scene(
     datatype: Option<SampleFormat>,
 ) -> Result<SceneSummary> {
     let scene = Scene::load(scene_path)?;
+    write_scene(
+        &scene,
+        scene_path,
+        &scene_dir(scene_path),
+        out_base,
+        datatype,
+    )
+}
+
+/// Generates an already loaded `scene` into `out_base.sigmf-data`/`.sigmf-meta`. `origin`
+/// names the scene in errors; relative WAV paths are taken from `base_dir`.
+pub fn write_scene(
+    scene: &Scene,
+    origin: &Path,
+    base_dir: &Path,
+    out_base: &Path,
+    datatype: Option<SampleFormat>,
+) -> Result<SceneSummary> {
+    let scene_path = origin;
     let format = match datatype {
         Some(f) if f.is_complex() => f,
         Some(f) => {
@@ -78,8 +97,8 @@ pub fn run_scene(
         }
         None => scene.format().map_err(|e| Error::file(scene_path, e))?,
     };
-    let mut generator = SceneGenerator::new(&scene, &scene_dir(scene_path))
-        .map_err(|e| Error::file(scene_path, e.to_string()))?;
+    let mut generator =
+        SceneGenerator::new(scene, base_dir).map_err(|e| Error::file(scene_path, e.to_string()))?;
     let description = scene
         .description
         .clone()
@@ -91,7 +110,7 @@ pub fn run_scene(
         Some(scene.centre_frequency),
         &description,
     )?;
-    let summaries = summarise(&scene, &generator);
+    let summaries = summarise(scene, &generator);
     for (spec, s) in scene.emissions.iter().zip(&summaries) {
         writer.annotate(annotation(spec, s));
     }

@@ -107,9 +107,14 @@ impl Scene {
     /// file and the field.
     pub fn load(path: &Path) -> Result<Self> {
         let text = std::fs::read_to_string(path).map_err(|e| Error::io(path, e))?;
-        let scene: Scene = serde_json::from_str(&text)
-            .map_err(|e| Error::file(path, format!("bad scene JSON: {e}")))?;
-        scene.check().map_err(|e| Error::file(path, e))?;
+        Self::parse(&text, path)
+    }
+
+    /// Parses and checks scene JSON; `origin` names it in errors.
+    pub fn parse(text: &str, origin: &Path) -> Result<Self> {
+        let scene: Scene = serde_json::from_str(text)
+            .map_err(|e| Error::file(origin, format!("bad scene JSON: {e}")))?;
+        scene.check().map_err(|e| Error::file(origin, e))?;
         Ok(scene)
     }
 
