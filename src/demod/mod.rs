@@ -11,6 +11,8 @@ pub mod envelope;
 pub mod front_end;
 pub mod mode;
 pub mod receiver;
+pub mod ssb_phasing;
+pub mod ssb_weaver;
 
 pub use am::{AmConfig, AmReceiver};
 pub use audio_stage::AudioStage;
@@ -20,3 +22,5 @@ pub use envelope::EnvelopeDetector;
 pub use front_end::{ChannelFrontEnd, FrontEndConfig};
 pub use mode::Mode;
 pub use receiver::{Measurements, Receiver};
+pub use ssb_phasing::{PhasingDetector, PhasingImbalance};
+pub use ssb_weaver::WeaverDetector;
