@@ -11,6 +11,7 @@ pub mod envelope;
 pub mod front_end;
 pub mod mode;
 pub mod receiver;
+pub mod ssb;
 pub mod ssb_phasing;
 pub mod ssb_weaver;
 
@@ -22,5 +23,6 @@ pub use envelope::EnvelopeDetector;
 pub use front_end::{ChannelFrontEnd, FrontEndConfig};
 pub use mode::Mode;
 pub use receiver::{Measurements, Receiver};
+pub use ssb::{ssb_detector, SsbConfig, SsbDetector, SsbReceiver};
 pub use ssb_phasing::{PhasingDetector, PhasingImbalance};
 pub use ssb_weaver::WeaverDetector;
