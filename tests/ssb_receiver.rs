@@ -187,3 +187,34 @@ fn carrier_lock_without_a_carrier_reports_no_lock() {
         }
     }
 }
+
+/// The mode builder makes SSB receivers from the shared options, and bad loop parameters come
+/// back as `InvalidParameter` naming the option (from `sync::LoopGains`).
+#[test]
+fn built_by_mode_with_loop_errors_propagated() {
+    use amrx::demod::{build_receiver, Mode, ReceiverConfig};
+    use amrx::Error;
+    for mode in [Mode::Usb, Mode::Lsb] {
+        let rx = build_receiver(mode, &ReceiverConfig::new(FS, DIAL)).unwrap();
+        assert_eq!((rx.audio_channels(), rx.bandwidth_hz()), (1, 2700.0));
+        for (bandwidth, damping, name) in [
+            (Some(0.0), None, "--loop-bandwidth"),
+            (Some(-5.0), None, "--loop-bandwidth"),
+            (Some(1e6), None, "--loop-bandwidth"),
+            (None, Some(0.0), "--loop-damping"),
+        ] {
+            let mut c = ReceiverConfig::new(FS, DIAL);
+            c.options.carrier_lock = true;
+            c.options.loop_settings.bandwidth_hz = bandwidth;
+            c.options.loop_settings.damping = damping;
+            match build_receiver(mode, &c) {
+                Err(Error::InvalidParameter { name: got, .. }) => assert_eq!(got, name),
+                Err(other) => panic!("{other:?}"),
+                Ok(_) => panic!("{bandwidth:?} {damping:?} accepted"),
+            }
+        }
+    }
+    let mut c = ReceiverConfig::new(FS, DIAL);
+    c.options.loop_settings.bandwidth_hz = Some(0.0);
+    assert!(build_receiver(Mode::Vsb, &c).is_err());
+}

@@ -241,12 +241,12 @@ impl CarrierLock {
                 self.restart_acquisition();
                 return x;
             }
-            let dominant = self.dominant_hz();
+
             // Three time constants: the power average within 5 % of its final value.
             self.seen += 1;
             let settled = self.seen as f64 * self.power_alpha >= 3.0;
             if settled
-                && dominant.abs() <= MAX_DIAL_ERROR_HZ
+                && !self.dominant_strays()
                 && self.acquire.is_locked()
                 && self.carrier_dominates(self.acquire.carrier_amplitude())
             {
@@ -269,8 +269,8 @@ impl CarrierLock {
         } else {
             self.unlocked_for += 1;
         }
-        let strayed = self.track.frequency_hz().abs() > MAX_DIAL_ERROR_HZ
-            || self.dominant_hz().abs() > MAX_DIAL_ERROR_HZ;
+        let strayed =
+            self.track.frequency_hz().abs() > MAX_DIAL_ERROR_HZ || self.dominant_strays();
         if strayed || self.unlocked_for > self.max_unlocked {
             // Lost, or following modulation: start acquiring again.
             self.restart_acquisition();
@@ -299,8 +299,16 @@ impl CarrierLock {
     }
 
     /// True when a carrier of `amplitude` holds [`CARRIER_POWER_SHARE`] of the loop's input.
+    /// Only checked on a pilot (filtered input): a full carrier's share depends on the
+    /// modulation, and the loop is then trusted to its own lock detector.
     fn carrier_dominates(&self, amplitude: f64) -> bool {
-        amplitude * amplitude.abs() >= CARRIER_POWER_SHARE * self.power
+        self.pilot_alpha.is_none() || amplitude * amplitude.abs() >= CARRIER_POWER_SHARE * self.power
+    }
+
+    /// True when the loop input's dominant frequency lies beyond the dial-error range (checked
+    /// on a pilot only: unfiltered, the modulation pulls the estimate away from the carrier).
+    fn dominant_strays(&self) -> bool {
+        self.pilot_alpha.is_some() && self.dominant_hz().abs() > MAX_DIAL_ERROR_HZ
     }
 
     /// De-rotates `buffer` in place.
