@@ -35,7 +35,13 @@ fn receiver(method: SsbMethod) -> IsbReceiver {
 fn channel_amplitudes(stereo: &[f32], f: f64) -> (f64, f64) {
     let skip = (0.5 * AUDIO) as usize;
     let left: Vec<f32> = stereo.iter().step_by(2).skip(skip).copied().collect();
-    let right: Vec<f32> = stereo.iter().skip(1).step_by(2).skip(skip).copied().collect();
+    let right: Vec<f32> = stereo
+        .iter()
+        .skip(1)
+        .step_by(2)
+        .skip(skip)
+        .copied()
+        .collect();
     let a = |x: &[f32]| fit_tone(x, AUDIO, f).unwrap().amplitude;
     (a(&left), a(&right))
 }

@@ -55,7 +55,11 @@ fn tone_amplitude(audio: &[f32], f: f64) -> f64 {
 fn opposite_sideband_rejection_at_least_50_db_for_both_methods() {
     for method in [SsbMethod::Phasing, SsbMethod::Weaver] {
         for sideband in [Sideband::Upper, Sideband::Lower] {
-            let s = if sideband == Sideband::Upper { 1.0 } else { -1.0 };
+            let s = if sideband == Sideband::Upper {
+                1.0
+            } else {
+                -1.0
+            };
             for f in [300.0, 1000.0, 2500.0] {
                 let run = |side: f64| {
                     let x = ssb_signal(DIAL, 0.0, &[(0.5, side * f)], 1.5);
@@ -67,8 +71,14 @@ fn opposite_sideband_rejection_at_least_50_db_for_both_methods() {
                 let rejection = 20.0 * (wanted / unwanted).log10();
                 println!("{method:?} {sideband:?} {f} Hz: gain {wanted:.4}/0.5, rejection {rejection:.1} dB");
                 // Unity gain in the passband (the detectors' ½ undoes the sideband's ×2).
-                assert!((wanted - 0.5).abs() < 0.01, "{method:?} {sideband:?} {f}: {wanted}");
-                assert!(rejection >= 50.0, "{method:?} {sideband:?} {f}: {rejection:.1} dB");
+                assert!(
+                    (wanted - 0.5).abs() < 0.01,
+                    "{method:?} {sideband:?} {f}: {wanted}"
+                );
+                assert!(
+                    rejection >= 50.0,
+                    "{method:?} {sideband:?} {f}: {rejection:.1} dB"
+                );
             }
         }
     }
@@ -86,13 +96,13 @@ fn figure_of_merit_is_one() {
     let snr_db = 30.0;
     let a = 0.5f32;
     let n0 = f64::from(a * a) / (w * 10f64.powf(snr_db / 10.0));
-    for (i, method) in [SsbMethod::Phasing, SsbMethod::Weaver].into_iter().enumerate() {
+    for (i, method) in [SsbMethod::Phasing, SsbMethod::Weaver]
+        .into_iter()
+        .enumerate()
+    {
         let mut x = ssb_signal(DIAL, 0.0, &[(a, 1000.0)], 4.5);
         ComplexNoise::new(n0 * FS, 40 + i as u64).add_to(&mut x);
-        let audio = process_to_vec(
-            &mut receiver(Sideband::Upper, method, AgcSettings::OFF),
-            &x,
-        );
+        let audio = process_to_vec(&mut receiver(Sideband::Upper, method, AgcSettings::OFF), &x);
         let out = snr_in_band_db(settled(&audio), AUDIO, 1000.0, w).unwrap();
         println!("{method:?}: channel SNR {snr_db} dB, output SNR {out:.2} dB");
         assert!((out - snr_db).abs() < 0.5, "{method:?}: {out:.2} dB");
@@ -110,14 +120,21 @@ fn j3e_r3e_h3e_give_sinad_above_30_db() {
     for method in [SsbMethod::Phasing, SsbMethod::Weaver] {
         for (name, carrier) in [("J3E", 0.0f32), ("R3E", 0.5 * 0.158_489), ("H3E", 0.5)] {
             for sideband in [Sideband::Upper, Sideband::Lower] {
-                let f = if sideband == Sideband::Upper { 1000.0 } else { -1000.0 };
+                let f = if sideband == Sideband::Upper {
+                    1000.0
+                } else {
+                    -1000.0
+                };
                 let mut x = ssb_signal(DIAL, carrier, &[(0.5, f)], 2.0);
                 ComplexNoise::new(n0 * FS, 9).add_to(&mut x);
                 let mut rx = receiver(sideband, method, AgcSettings::SPEECH);
                 let audio = process_to_vec(&mut rx, &x);
                 let sinad = sinad_db(settled(&audio), AUDIO, 1000.0).unwrap();
                 println!("{method:?} {name} {sideband:?}: SINAD {sinad:.1} dB");
-                assert!(sinad >= 30.0, "{method:?} {name} {sideband:?}: {sinad:.1} dB");
+                assert!(
+                    sinad >= 30.0,
+                    "{method:?} {name} {sideband:?}: {sinad:.1} dB"
+                );
                 let m = rx.measurements();
                 assert_eq!((m.locked, m.carrier_offset_hz), (None, None));
             }

@@ -64,7 +64,9 @@ fn receiver() -> VsbReceiver {
 }
 
 fn amplitude(audio: &[f32], f: f64) -> f64 {
-    fit_tone(&audio[AUDIO as usize..], AUDIO, f).unwrap().amplitude
+    fit_tone(&audio[AUDIO as usize..], AUDIO, f)
+        .unwrap()
+        .amplitude
 }
 
 /// A 300 Hz tone (inside the vestige, both sidebands sent) and a 2 kHz tone (upper sideband

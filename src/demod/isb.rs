@@ -144,7 +144,10 @@ impl IsbReceiver {
 
     /// Interleaved outputs of one piece of `n ≤ CHUNK` inputs, at most.
     fn piece_bound(&self, n: usize) -> usize {
-        2 * self.upper.audio.max_output_len(self.front.max_output_len(n))
+        2 * self
+            .upper
+            .audio
+            .max_output_len(self.front.max_output_len(n))
     }
 
     fn process_piece(&mut self, input: &[Complex32], output: &mut [f32]) -> usize {

@@ -269,8 +269,7 @@ impl CarrierLock {
         } else {
             self.unlocked_for += 1;
         }
-        let strayed =
-            self.track.frequency_hz().abs() > MAX_DIAL_ERROR_HZ || self.dominant_strays();
+        let strayed = self.track.frequency_hz().abs() > MAX_DIAL_ERROR_HZ || self.dominant_strays();
         if strayed || self.unlocked_for > self.max_unlocked {
             // Lost, or following modulation: start acquiring again.
             self.restart_acquisition();
@@ -302,7 +301,8 @@ impl CarrierLock {
     /// Only checked on a pilot (filtered input): a full carrier's share depends on the
     /// modulation, and the loop is then trusted to its own lock detector.
     fn carrier_dominates(&self, amplitude: f64) -> bool {
-        self.pilot_alpha.is_none() || amplitude * amplitude.abs() >= CARRIER_POWER_SHARE * self.power
+        self.pilot_alpha.is_none()
+            || amplitude * amplitude.abs() >= CARRIER_POWER_SHARE * self.power
     }
 
     /// True when the loop input's dominant frequency lies beyond the dial-error range (checked
@@ -519,10 +519,7 @@ mod tests {
                 let t = n as f64 / FS;
                 Complex32::from_polar(0.2, (TAU * 10_040.0 * t) as f32)
                     + Complex32::from_polar(0.5, (TAU * 11_040.0 * t) as f32)
-                    + Complex32::new(
-                        rng.random_range(-0.01..0.01),
-                        rng.random_range(-0.01..0.01),
-                    )
+                    + Complex32::new(rng.random_range(-0.01..0.01), rng.random_range(-0.01..0.01))
             })
             .collect()
     }
@@ -542,7 +539,11 @@ mod tests {
             let mut rng = StdRng::seed_from_u64(8);
             let random: Vec<usize> = (0..64).map(|_| rng.random_range(1..20_000)).collect();
             for sizes in [vec![1usize, 7, 1024], random] {
-                assert_eq!(process_in_chunks(&mut make(), &x, &sizes), whole, "{method:?}");
+                assert_eq!(
+                    process_in_chunks(&mut make(), &x, &sizes),
+                    whole,
+                    "{method:?}"
+                );
             }
         }
     }
@@ -557,7 +558,10 @@ mod tests {
         c.loop_settings.bandwidth_hz = Some(0.0);
         assert!(matches!(
             SsbReceiver::new(c),
-            Err(Error::InvalidParameter { name: "--loop-bandwidth", .. })
+            Err(Error::InvalidParameter {
+                name: "--loop-bandwidth",
+                ..
+            })
         ));
         c.loop_settings = LoopSettings {
             bandwidth_hz: None,
@@ -565,7 +569,10 @@ mod tests {
         };
         assert!(matches!(
             SsbReceiver::new(c),
-            Err(Error::InvalidParameter { name: "--loop-damping", .. })
+            Err(Error::InvalidParameter {
+                name: "--loop-damping",
+                ..
+            })
         ));
     }
 }

@@ -231,7 +231,11 @@ mod tests {
     #[test]
     fn signs_and_rejection() {
         for sideband in [Sideband::Upper, Sideband::Lower] {
-            let s = if sideband == Sideband::Upper { 1.0 } else { -1.0 };
+            let s = if sideband == Sideband::Upper {
+                1.0
+            } else {
+                -1.0
+            };
             for f in [200.0, 1000.0, 2700.0] {
                 let mut det = PhasingDetector::new(sideband, 100.0, FS).unwrap();
                 let skip = 2 * det.num_taps();
@@ -240,7 +244,10 @@ mod tests {
                 let unwanted = amplitude(&process_to_vec(&mut det, &tone(-s * f, 24_000)), skip);
                 let rejection = 20.0 * (wanted / unwanted).log10();
                 println!("{sideband:?} {f} Hz: gain {wanted:.4}, rejection {rejection:.1} dB");
-                assert!((wanted - 1.0).abs() < 3e-3, "{sideband:?} {f}: gain {wanted}");
+                assert!(
+                    (wanted - 1.0).abs() < 3e-3,
+                    "{sideband:?} {f}: gain {wanted}"
+                );
                 assert!(rejection > 50.0, "{sideband:?} {f}: {rejection:.1} dB");
             }
         }

@@ -88,18 +88,24 @@ impl WeaverDetector {
 
     fn process_piece(&mut self, input: &[Complex32], output: &mut [f32]) {
         let n = input.len();
-        for k in 0..n {
-            let lo = self.nco.next_sample();
-            self.oscillator[k] = lo;
-            self.shifted[k] = input[k] * lo;
+        for ((x, lo), shifted) in input
+            .iter()
+            .zip(&mut self.oscillator[..n])
+            .zip(&mut self.shifted[..n])
+        {
+            *lo = self.nco.next_sample();
+            *shifted = x * *lo;
         }
         self.lowpass
             .process(&self.shifted[..n], &mut self.filtered[..n]);
         // Re{y·conj(lo)} with the same oscillator sample: the shift back is time-aligned, so
         // the whole is a time-invariant band-pass.
-        for k in 0..n {
-            let (y, lo) = (self.filtered[k], self.oscillator[k]);
-            output[k] = y.re * lo.re + y.im * lo.im;
+        for ((out, y), lo) in output
+            .iter_mut()
+            .zip(&self.filtered[..n])
+            .zip(&self.oscillator[..n])
+        {
+            *out = y.re * lo.re + y.im * lo.im;
         }
     }
 }
@@ -161,7 +167,11 @@ mod tests {
     #[test]
     fn signs_and_rejection() {
         for sideband in [Sideband::Upper, Sideband::Lower] {
-            let s = if sideband == Sideband::Upper { 1.0 } else { -1.0 };
+            let s = if sideband == Sideband::Upper {
+                1.0
+            } else {
+                -1.0
+            };
             for f in [100.0, 1000.0, 2700.0] {
                 let make = || WeaverDetector::new(sideband, 100.0, 2700.0, FS).unwrap();
                 let skip = 2 * make().num_taps();
@@ -169,7 +179,10 @@ mod tests {
                 let unwanted = amplitude(&process_to_vec(&mut make(), &tone(-s * f, 24_000)), skip);
                 let rejection = 20.0 * (wanted / unwanted).log10();
                 println!("{sideband:?} {f} Hz: gain {wanted:.4}, rejection {rejection:.1} dB");
-                assert!((wanted - 1.0).abs() < 2e-3, "{sideband:?} {f}: gain {wanted}");
+                assert!(
+                    (wanted - 1.0).abs() < 2e-3,
+                    "{sideband:?} {f}: gain {wanted}"
+                );
                 assert!(rejection > 60.0, "{sideband:?} {f}: {rejection:.1} dB");
             }
         }

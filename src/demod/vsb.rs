@@ -52,7 +52,11 @@ pub fn nyquist_slope_taps(vestige_hz: f64, sample_rate: f64) -> Result<Vec<f32>>
         let k = 2.0 * PI * m as f64;
         2.0 * (k * v).sin() / (v * k * k) - 2.0 * (PI * m as f64).cos() / k
     };
-    Ok(windowed_antisymmetric(n, kaiser_beta(SLOPE_ATTENUATION_DB), ideal))
+    Ok(windowed_antisymmetric(
+        n,
+        kaiser_beta(SLOPE_ATTENUATION_DB),
+        ideal,
+    ))
 }
 
 /// Settings of a VSB receiver.
