@@ -32,8 +32,8 @@ const SLOPE_ATTENUATION_DB: f64 = 60.0;
 const CARRIER_SEARCH_HZ: f64 = 20.0;
 
 /// Taps of the real antisymmetric FIR a whose amplitude is the odd slope S(f) = f/f_v for
-/// |f| < f_v, sgn(f) beyond. Ideal response: a[m] = 2∫₀^½ S(f)·sin(2πfm) df
-/// = 2·sin(kv)/(v·k²) − 2·cos(πm)/k with k = 2πm, v = f_v/fs (a[0] = 0), Kaiser-windowed;
+/// |f| < f_v, sgn(f) beyond. Ideal response: `a[m] = 2∫₀^½ S(f)·sin(2πfm) df
+/// = 2·sin(kv)/(v·k²) − 2·cos(πm)/k` with k = 2πm, v = f_v/fs (`a[0] = 0`), Kaiser-windowed;
 /// the window's main lobe is sized to f_v/2 so it rounds only the slope's corners.
 pub fn nyquist_slope_taps(vestige_hz: f64, sample_rate: f64) -> Result<Vec<f32>> {
     if !(vestige_hz.is_finite() && vestige_hz > 0.0 && vestige_hz < 0.25 * sample_rate) {
