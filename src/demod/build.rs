@@ -3,6 +3,8 @@
 use super::config::ReceiverConfig;
 use super::{AmConfig, AmReceiver, Mode, Receiver};
 use super::{DsbConfig, DsbReceiver, SamConfig, SamReceiver};
+use super::{IsbConfig, IsbReceiver, Sideband, SsbConfig, SsbReceiver, VsbConfig, VsbReceiver};
+use crate::dsp::AgcSettings;
 use crate::{Error, Result};
 
 /// The receiver for `mode`.
@@ -29,9 +31,46 @@ pub fn build_receiver(mode: Mode, config: &ReceiverConfig) -> Result<Box<dyn Rec
         }
         Mode::Sam => Ok(Box::new(SamReceiver::new(SamConfig::from_options(config))?)),
         Mode::Dsb => Ok(Box::new(DsbReceiver::new(DsbConfig::from_options(config))?)),
-        other => Err(Error::NotYetAvailable {
-            what: format!("mode '{other}'"),
-        }),
+        Mode::Usb | Mode::Lsb => {
+            let sideband = if mode == Mode::Usb {
+                Sideband::Upper
+            } else {
+                Sideband::Lower
+            };
+            let o = &config.options;
+            let ssb = SsbConfig {
+                bandwidth_hz: o.bandwidth_hz.unwrap_or(SsbConfig::DEFAULT_BANDWIDTH_HZ),
+                audio_rate: o.audio_rate,
+                method: o.ssb_method,
+                agc: o.agc.unwrap_or(AgcSettings::SPEECH),
+                carrier_lock: o.carrier_lock,
+                loop_settings: o.loop_settings,
+                ..SsbConfig::new(config.input_rate, config.offset_hz, sideband)
+            };
+            Ok(Box::new(SsbReceiver::new(ssb)?))
+        }
+        Mode::Isb => {
+            let o = &config.options;
+            let isb = IsbConfig {
+                bandwidth_hz: o.bandwidth_hz.unwrap_or(IsbConfig::DEFAULT_BANDWIDTH_HZ),
+                audio_rate: o.audio_rate,
+                method: o.ssb_method,
+                agc: o.agc.unwrap_or(AgcSettings::SPEECH),
+                ..IsbConfig::new(config.input_rate, config.offset_hz)
+            };
+            Ok(Box::new(IsbReceiver::new(isb)?))
+        }
+        Mode::Vsb => {
+            let o = &config.options;
+            let vsb = VsbConfig {
+                bandwidth_hz: o.bandwidth_hz.unwrap_or(VsbConfig::DEFAULT_BANDWIDTH_HZ),
+                audio_rate: o.audio_rate,
+                agc: o.agc.unwrap_or(AgcSettings::SLOW),
+                loop_settings: o.loop_settings,
+                ..VsbConfig::new(config.input_rate, config.offset_hz)
+            };
+            Ok(Box::new(VsbReceiver::new(vsb)?))
+        }
     }
 }
 

@@ -10,9 +10,14 @@ pub mod config;
 pub mod dsb;
 pub mod envelope;
 pub mod front_end;
+pub mod isb;
 pub mod mode;
 pub mod receiver;
 pub mod sam;
+pub mod ssb;
+pub mod ssb_phasing;
+pub mod ssb_weaver;
+pub mod vsb;
 
 pub use am::{AmConfig, AmReceiver};
 pub use audio_stage::AudioStage;
@@ -21,6 +26,11 @@ pub use config::{LoopSettings, ReceiverConfig, ReceiverOptions, Sideband, SsbMet
 pub use dsb::{DsbConfig, DsbReceiver};
 pub use envelope::EnvelopeDetector;
 pub use front_end::{ChannelFrontEnd, FrontEndConfig};
+pub use isb::{IsbConfig, IsbReceiver};
 pub use mode::Mode;
 pub use receiver::{Measurements, Receiver};
 pub use sam::{SamConfig, SamReceiver};
+pub use ssb::{ssb_detector, SsbConfig, SsbDetector, SsbReceiver};
+pub use ssb_phasing::{PhasingDetector, PhasingImbalance};
+pub use ssb_weaver::WeaverDetector;
+pub use vsb::{VsbConfig, VsbReceiver};
