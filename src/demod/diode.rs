@@ -213,7 +213,7 @@ impl DiodeDetector {
             let c = self.carrier[self.carrier_index];
             self.carrier_index = (self.carrier_index + 1) % self.carrier.len();
             let x = z.re * c.re - z.im * c.im;
-            self.voltage = x.max(self.voltage * self.discharge);
+            self.voltage = diode_step(x, self.voltage, self.discharge);
             *v = self.voltage;
         }
         n
@@ -225,6 +225,26 @@ impl DiodeDetector {
         let n = self.rectify(up);
         self.decimator.process(&self.passband[..n], output).1
     }
+}
+
+/// One step of the ideal diode into the capacitor: charge to the input if it is higher, else
+/// discharge by the factor e^(−T/RC).
+#[inline]
+pub fn diode_step(x: f32, voltage: f32, discharge: f32) -> f32 {
+    x.max(voltage * discharge)
+}
+
+/// The capacitor voltage for a real passband signal `x` at `rate` with time constant `rc_s`,
+/// starting discharged. Allocates: for analysis and plots, not for streaming.
+pub fn capacitor_voltage(x: &[f32], rc_s: f64, rate: f64) -> Vec<f32> {
+    let discharge = (-1.0 / (rate * rc_s)).exp() as f32;
+    let mut v = 0.0;
+    x.iter()
+        .map(|&x| {
+            v = diode_step(x, v, discharge);
+            v
+        })
+        .collect()
 }
 
 impl Block for DiodeDetector {

@@ -17,7 +17,7 @@ pub use am::{AmConfig, AmReceiver};
 pub use audio_stage::AudioStage;
 pub use build::build_receiver;
 pub use config::{LoopSettings, ReceiverConfig, ReceiverOptions, Sideband, SsbMethod};
-pub use diode::{DiodeConfig, DiodeDetector};
+pub use diode::{capacitor_voltage, diode_step, DiodeConfig, DiodeDetector};
 pub use envelope::EnvelopeDetector;
 pub use front_end::{ChannelFrontEnd, FrontEndConfig};
 pub use mode::Mode;

@@ -11,7 +11,7 @@ pub const CSV_HEADER: &str =
 
 /// The sweep as CSV text: columns as in [`CSV_HEADER`], dB to 3 decimals, `cnr_db` empty
 /// without a carrier and `stderr_db` empty for a single trial. `output_snr_db` is the mean
-/// over the trials of the output SNR in dB; `stderr_db` is its standard error.
+/// over the trials of the linear output SNR, in dB; `stderr_db` is its standard error.
 pub fn to_csv(result: &SweepResult) -> String {
     let mut out = String::from(CSV_HEADER);
     out.push('\n');

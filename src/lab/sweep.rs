@@ -2,7 +2,7 @@
 //! results averaged per point.
 
 use super::detector::Detector;
-use super::theory::{channel_snr_over_cnr_db, db};
+use super::theory::{channel_snr_over_cnr_db, db, from_db};
 use super::trial::{run_trial, trial_seed, TrialSettings};
 use crate::{Error, Result};
 use rayon::prelude::*;
@@ -144,9 +144,10 @@ pub struct SweepPoint {
     pub channel_snr_db: f64,
     /// CNR, dB; `None` for suppressed-carrier signals.
     pub cnr_db: Option<f64>,
-    /// Mean over the trials of the output SNR in dB.
+    /// The output SNR in dB of the mean over the trials of the linear output SNR.
     pub output_snr_db: f64,
-    /// Standard error of that mean: sample standard deviation / √trials (NaN for one trial).
+    /// Standard error of `output_snr_db`: (10/ln 10)·(sample standard deviation of the linear
+    /// ratios)/(√trials · mean); NaN for one trial.
     pub stderr_db: f64,
     /// The above-threshold theory: channel SNR + 10·log10(figure of merit).
     pub theory_db: f64,
@@ -252,8 +253,8 @@ impl SweepResult {
 /// Runs every trial of `spec` in parallel on rayon's global pool, calling `progress` after
 /// each (from worker threads, so it must be `Sync`), and averages per point.
 ///
-/// Per point the output SNR is the mean of the trials' output SNRs in dB, with its standard
-/// error. Every trial's noise is seeded by [`trial_seed`] from (seed, detector name, point
+/// Per point the output SNR is the mean of the trials' linear output SNRs (shown in dB), with
+/// its standard error. Every trial's noise is seeded by [`trial_seed`] from (seed, detector name, point
 /// index, trial index), so the result does not depend on the number of threads or their
 /// scheduling. Errors: an invalid spec, a detector whose receiver is not available
 /// ([`Error::NotYetAvailable`]), or a trial whose output SNR cannot be measured.
@@ -311,9 +312,12 @@ where
 
 /// Averages one point's trials.
 fn point(spec: &SweepSpec, detector: &Detector, p: usize, trials: &[f64]) -> SweepPoint {
-    let n = trials.len() as f64;
-    let mean = trials.iter().sum::<f64>() / n;
-    let var = trials.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0);
+    // Mean of the linear power ratios; its standard error carried to dB by the delta method,
+    // d(10·log10 r) = (10/ln 10)·dr/r.
+    let ratios: Vec<f64> = trials.iter().map(|&x| from_db(x)).collect();
+    let n = ratios.len() as f64;
+    let mean = ratios.iter().sum::<f64>() / n;
+    let var = ratios.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0);
     let snr = spec.channel_snr_db(spec.input_db[p]);
     let mu = spec.trial.mu;
     SweepPoint {
@@ -322,8 +326,8 @@ fn point(spec: &SweepSpec, detector: &Detector, p: usize, trials: &[f64]) -> Swe
         cnr_db: detector
             .has_carrier()
             .then(|| snr - channel_snr_over_cnr_db(mu)),
-        output_snr_db: mean,
-        stderr_db: (var / n).sqrt(),
+        output_snr_db: db(mean),
+        stderr_db: 10.0 / std::f64::consts::LN_10 * (var / n).sqrt() / mean,
         theory_db: snr + db(detector.figure_of_merit(mu)),
         trials: trials.len(),
     }
