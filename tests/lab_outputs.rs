@@ -43,7 +43,11 @@ fn csv_has_one_row_per_detector_and_point() {
     let path = dir.join("sweep.csv");
     write_csv(&result, &path).unwrap();
     assert_eq!(std::fs::read_to_string(&path).unwrap(), text);
-    assert_eq!(std::fs::read_dir(&dir).unwrap().count(), 1, "no temporary left");
+    assert_eq!(
+        std::fs::read_dir(&dir).unwrap().count(),
+        1,
+        "no temporary left"
+    );
 }
 
 #[test]
@@ -56,7 +60,11 @@ fn png_is_written_whole() {
     // IHDR: width and height, big-endian, at bytes 16..24.
     assert_eq!(u32::from_be_bytes(bytes[16..20].try_into().unwrap()), 1000);
     assert_eq!(u32::from_be_bytes(bytes[20..24].try_into().unwrap()), 700);
-    assert_eq!(std::fs::read_dir(&dir).unwrap().count(), 1, "no temporary left");
+    assert_eq!(
+        std::fs::read_dir(&dir).unwrap().count(),
+        1,
+        "no temporary left"
+    );
     // A path in a missing folder is an error, not a panic, and leaves nothing behind.
     assert!(write_png(&small_sweep(Axis::Snr), &dir.join("missing/sweep.png")).is_err());
 }

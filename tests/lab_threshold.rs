@@ -68,8 +68,12 @@ fn envelope_threshold_from_the_sweep() {
     let result = threshold_sweep(vec![Detector::Receiver(Mode::Am), Detector::diode()]);
     for curve in &result.curves {
         print_curve(curve);
-        let one = curve.threshold(1.0).expect("1 dB threshold inside the sweep");
-        let three = curve.threshold(3.0).expect("3 dB threshold inside the sweep");
+        let one = curve
+            .threshold(1.0)
+            .expect("1 dB threshold inside the sweep");
+        let three = curve
+            .threshold(3.0)
+            .expect("3 dB threshold inside the sweep");
         eprintln!(
             "{}: 1 dB loss at channel SNR {:.2} dB (CNR {:.2} dB), 3 dB at SNR {:.2} dB (CNR {:.2} dB)",
             curve.detector,

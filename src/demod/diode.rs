@@ -20,8 +20,8 @@
 //! RC ≤ √(1−μ²)/(μ·ω_m) (Haykin, ch. 2, problem on the envelope detector; Carlson).
 
 use crate::block::Block;
-use crate::dsp::{DecimationPlan, MultiStageDecimator, RationalResampler};
 use crate::dsp::{design_lowpass, LowpassSpec};
+use crate::dsp::{DecimationPlan, MultiStageDecimator, RationalResampler};
 use crate::{Complex32, Error, Result};
 
 /// Channel samples handled per internal step; sizes the oversampled buffers.
@@ -108,7 +108,9 @@ impl DiodeConfig {
         // The passband signal f_IF ± W must stay clear of 0 Hz and of the Nyquist frequency.
         let f_if = self.if_hz();
         let w = self.bandwidth_hz;
-        if self.samples_per_cycle < 4 || f_if - w <= 2.0 * w || f_if + w >= 0.45 * self.passband_rate()
+        if self.samples_per_cycle < 4
+            || f_if - w <= 2.0 * w
+            || f_if + w >= 0.45 * self.passband_rate()
         {
             return Err(Error::parameter(
                 "diode IF",
@@ -333,12 +335,17 @@ mod tests {
         // The sampled rectifier's mean over one cycle of M = 16 samples, (A/M)·Σ max(cos, 0),
         // is 1.3 % below the continuous A/π.
         let m = DiodeConfig::DEFAULT_SAMPLES_PER_CYCLE;
-        let half_wave = 0.5 * (0..m)
-            .map(|k| (TAU * k as f64 / m as f64).cos().max(0.0))
-            .sum::<f64>() as f32
+        let half_wave = 0.5
+            * (0..m)
+                .map(|k| (TAU * k as f64 / m as f64).cos().max(0.0))
+                .sum::<f64>() as f32
             / m as f32;
         assert!((half_wave * std::f32::consts::PI / 0.5 - 1.0).abs() < 0.02);
-        assert!((settled(&short) - half_wave).abs() < 0.002 * half_wave, "{}", settled(&short));
+        assert!(
+            (settled(&short) - half_wave).abs() < 0.002 * half_wave,
+            "{}",
+            settled(&short)
+        );
         let t_c = 1.0 / 96_000.0;
         let peak = 0.5 * (1.0 - t_c / (2.0 * 1e-3)) as f32;
         assert!((settled(&long) - peak).abs() < 0.003, "{}", settled(&long));

@@ -15,7 +15,10 @@ pub const CSV_HEADER: &str =
 pub fn to_csv(result: &SweepResult) -> String {
     let mut out = String::from(CSV_HEADER);
     out.push('\n');
-    let optional = |v: Option<f64>| v.filter(|v| v.is_finite()).map_or(String::new(), |v| format!("{v:.3}"));
+    let optional = |v: Option<f64>| {
+        v.filter(|v| v.is_finite())
+            .map_or(String::new(), |v| format!("{v:.3}"))
+    };
     for curve in &result.curves {
         for p in &curve.points {
             // Writing to a String cannot fail.

@@ -94,7 +94,11 @@ impl Detector {
             Detector::Receiver(mode) => build_receiver(*mode, config),
             Detector::Diode { rc_s } => {
                 let bandwidth = config.options.bandwidth_hz.ok_or_else(|| {
-                    Error::parameter("--bandwidth", "none", "the diode detector needs a bandwidth")
+                    Error::parameter(
+                        "--bandwidth",
+                        "none",
+                        "the diode detector needs a bandwidth",
+                    )
                 })?;
                 Ok(Box::new(DiodeReceiver::new(
                     config.input_rate,
@@ -143,7 +147,10 @@ impl FromStr for Detector {
 
 /// Parses a comma-separated detector list such as `am,diode,sam`.
 pub fn parse_detectors(list: &str) -> Result<Vec<Detector>> {
-    list.split(',').filter(|s| !s.trim().is_empty()).map(str::parse).collect()
+    list.split(',')
+        .filter(|s| !s.trim().is_empty())
+        .map(str::parse)
+        .collect()
 }
 
 #[cfg(test)]

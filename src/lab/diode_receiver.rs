@@ -5,8 +5,7 @@ use crate::block::{pieces_bound, Block};
 use crate::demod::audio_stage::validate_audio;
 use crate::demod::front_end::CHUNK;
 use crate::demod::{
-    AudioStage, ChannelFrontEnd, DiodeConfig, DiodeDetector, FrontEndConfig, Measurements,
-    Receiver,
+    AudioStage, ChannelFrontEnd, DiodeConfig, DiodeDetector, FrontEndConfig, Measurements, Receiver,
 };
 use crate::{Complex32, Result};
 
@@ -68,7 +67,8 @@ impl DiodeReceiver {
 
     fn piece_bound(&self, n: usize) -> usize {
         let channel = self.front.max_output_len(n);
-        self.audio.max_output_len(self.diode.max_output_len(channel))
+        self.audio
+            .max_output_len(self.diode.max_output_len(channel))
     }
 
     fn process_piece(&mut self, input: &[Complex32], output: &mut [f32]) -> usize {
@@ -161,7 +161,11 @@ mod tests {
         let out = process_to_vec(&mut receiver(), &input());
         let fit = crate::measure::fit_tone(&out[10_000..], 48_000.0, 1000.0).unwrap();
         assert!((fit.frequency_hz - 1000.0).abs() < 0.01);
-        assert!((fit.amplitude / 0.15 - 0.9).abs() < 0.05, "{}", fit.amplitude);
+        assert!(
+            (fit.amplitude / 0.15 - 0.9).abs() < 0.05,
+            "{}",
+            fit.amplitude
+        );
     }
 
     #[test]

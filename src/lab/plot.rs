@@ -15,12 +15,17 @@ static FONT: &[u8] = include_bytes!("../../assets/fonts/DejaVuSans.ttf");
 /// Registers the font once for the whole process.
 fn register_font() -> Result<()> {
     static REGISTERED: OnceLock<bool> = OnceLock::new();
-    let ok = *REGISTERED
-        .get_or_init(|| plotters::style::register_font("sans-serif", FontStyle::Normal, FONT).is_ok());
+    let ok = *REGISTERED.get_or_init(|| {
+        plotters::style::register_font("sans-serif", FontStyle::Normal, FONT).is_ok()
+    });
     if ok {
         Ok(())
     } else {
-        Err(Error::parameter("plot font", "DejaVuSans.ttf", "could not be loaded"))
+        Err(Error::parameter(
+            "plot font",
+            "DejaVuSans.ttf",
+            "could not be loaded",
+        ))
     }
 }
 
@@ -52,7 +57,11 @@ fn draw(result: &SweepResult, path: &Path) -> DrawResult {
     let mu = spec.trial.mu;
     let xs = || spec.input_db.iter().copied();
     let (x0, x1) = xs().fold((f64::MAX, f64::MIN), |(a, b), x| (a.min(x), b.max(x)));
-    let (x0, x1) = if x1 > x0 { (x0, x1) } else { (x0 - 1.0, x0 + 1.0) };
+    let (x0, x1) = if x1 > x0 {
+        (x0, x1)
+    } else {
+        (x0 - 1.0, x0 + 1.0)
+    };
     let ys = result
         .curves
         .iter()
@@ -86,7 +95,11 @@ fn draw(result: &SweepResult, path: &Path) -> DrawResult {
     draw_theory(&mut chart, result, (x0, x1), offset)?;
     for (i, curve) in result.curves.iter().enumerate() {
         let colour = COLOURS[i % COLOURS.len()];
-        let pts: Vec<(f64, f64)> = curve.points.iter().map(|p| (p.input_db, p.output_snr_db)).collect();
+        let pts: Vec<(f64, f64)> = curve
+            .points
+            .iter()
+            .map(|p| (p.input_db, p.output_snr_db))
+            .collect();
         chart
             .draw_series(LineSeries::new(pts.clone(), colour.stroke_width(2)))?
             .label(format!("{} measured", curve.detector.label()))
@@ -94,7 +107,12 @@ fn draw(result: &SweepResult, path: &Path) -> DrawResult {
         chart.draw_series(pts.into_iter().map(|p| Circle::new(p, 3, colour.filled())))?;
     }
     let has_carrier = result.curves.iter().any(|c| c.detector.has_carrier());
-    let threshold = envelope_threshold_cnr_db() + if spec.axis == Axis::Snr { channel_snr_over_cnr_db(mu) } else { 0.0 };
+    let threshold = envelope_threshold_cnr_db()
+        + if spec.axis == Axis::Snr {
+            channel_snr_over_cnr_db(mu)
+        } else {
+            0.0
+        };
     if has_carrier && (x0..=x1).contains(&threshold) {
         let grey = RGBColor(120, 120, 120);
         chart
@@ -105,6 +123,21 @@ fn draw(result: &SweepResult, path: &Path) -> DrawResult {
                 grey.stroke_width(1),
             ))?
             .label("1 % rule threshold, ρ = ln 100 (6.6 dB)")
+            .legend(move |(x, y)| PathElement::new([(x, y), (x + 20, y)], grey.stroke_width(1)));
+    }
+    // The tone estimate over-reads by the noise falling on it, P_n/(W·T): a floor for the
+    // measured output SNR.
+    let floor = -db(spec.trial.bandwidth_hz * spec.trial.seconds);
+    if floor > y0 - 3.0 {
+        let grey = RGBColor(170, 170, 170);
+        chart
+            .draw_series(DashedLineSeries::new(
+                [(x0, floor), (x1, floor)],
+                2,
+                4,
+                grey.stroke_width(1),
+            ))?
+            .label("measurement floor −10·log10(W·T)")
             .legend(move |(x, y)| PathElement::new([(x, y), (x + 20, y)], grey.stroke_width(1)));
     }
     chart
@@ -118,10 +151,19 @@ fn draw(result: &SweepResult, path: &Path) -> DrawResult {
     Ok(())
 }
 
-type Chart<'a> = ChartContext<'a, BitMapBackend<'a>, Cartesian2d<plotters::coord::types::RangedCoordf64, plotters::coord::types::RangedCoordf64>>;
+type Chart<'a> = ChartContext<
+    'a,
+    BitMapBackend<'a>,
+    Cartesian2d<plotters::coord::types::RangedCoordf64, plotters::coord::types::RangedCoordf64>,
+>;
 
 /// One dashed line per distinct figure of merit among the detectors.
-fn draw_theory(chart: &mut Chart<'_>, result: &SweepResult, (x0, x1): (f64, f64), offset: f64) -> DrawResult {
+fn draw_theory(
+    chart: &mut Chart<'_>,
+    result: &SweepResult,
+    (x0, x1): (f64, f64),
+    offset: f64,
+) -> DrawResult {
     let mu = result.spec.trial.mu;
     let mut drawn: Vec<f64> = Vec::new();
     for curve in &result.curves {
@@ -131,7 +173,10 @@ fn draw_theory(chart: &mut Chart<'_>, result: &SweepResult, (x0, x1): (f64, f64)
         }
         drawn.push(fom);
         let label = if curve.detector.has_carrier() {
-            format!("theory μ²/(2+μ²) = {:.2} dB (envelope above threshold, coherent)", db(fom))
+            format!(
+                "theory μ²/(2+μ²) = {:.2} dB (envelope above threshold, coherent)",
+                db(fom)
+            )
         } else {
             "theory FoM = 1 (coherent DSB-SC, SSB)".to_string()
         };

@@ -50,11 +50,7 @@ impl ToneSource {
         rate: f64,
     ) -> Result<Self> {
         if !(power.is_finite() && power > 0.0) {
-            return Err(Error::parameter(
-                "signal power",
-                power,
-                "must be positive",
-            ));
+            return Err(Error::parameter("signal power", power, "must be positive"));
         }
         match kind {
             TestSignal::FullCarrier => {
@@ -103,10 +99,14 @@ impl ToneSource {
                             Complex32::from_polar(1.0, (TAU * carrier) as f32)
                                 * (*amplitude * (TAU * tone).cos()) as f32
                         }
-                        TestSignal::UpperSideband => {
-                            Complex32::from_polar(*amplitude as f32, (TAU * (carrier + tone)) as f32)
-                        }
-                        _ => Complex32::from_polar(*amplitude as f32, (TAU * (carrier - tone)) as f32),
+                        TestSignal::UpperSideband => Complex32::from_polar(
+                            *amplitude as f32,
+                            (TAU * (carrier + tone)) as f32,
+                        ),
+                        _ => Complex32::from_polar(
+                            *amplitude as f32,
+                            (TAU * (carrier - tone)) as f32,
+                        ),
                     };
                     *n += 1;
                 }

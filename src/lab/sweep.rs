@@ -105,7 +105,11 @@ impl SweepSpec {
             ));
         }
         if !(1..=100_000).contains(&self.trials) {
-            return Err(Error::parameter("--trials", self.trials, "must be in 1..=100000"));
+            return Err(Error::parameter(
+                "--trials",
+                self.trials,
+                "must be in 1..=100000",
+            ));
         }
         for d in &self.detectors {
             if self.axis == Axis::Cnr && !d.has_carrier() {
@@ -379,7 +383,10 @@ mod tests {
 
     #[test]
     fn ranges_and_axes() {
-        assert_eq!(SweepSpec::range_db(-2.0, 2.0, 2.0).unwrap(), vec![-2.0, 0.0, 2.0]);
+        assert_eq!(
+            SweepSpec::range_db(-2.0, 2.0, 2.0).unwrap(),
+            vec![-2.0, 0.0, 2.0]
+        );
         assert_eq!(SweepSpec::range_db(0.0, 0.9, 0.3).unwrap().len(), 4);
         assert!(SweepSpec::range_db(3.0, 0.0, 1.0).is_err());
         let mut spec = SweepSpec::new(vec![Detector::Receiver(Mode::Dsb)], Axis::Cnr, vec![0.0]);

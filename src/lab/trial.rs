@@ -81,7 +81,11 @@ impl TrialSettings {
             ));
         }
         if self.iq_rate * (self.seconds + self.settle_s) > 1e9 {
-            return Err(Error::parameter("--seconds", self.seconds, "too long a trial"));
+            return Err(Error::parameter(
+                "--seconds",
+                self.seconds,
+                "too long a trial",
+            ));
         }
         Ok(())
     }
@@ -165,7 +169,11 @@ pub fn run_trial(
 ) -> Result<f64> {
     settings.validate()?;
     if !channel_snr_db.is_finite() {
-        return Err(Error::parameter("SNR point", channel_snr_db, "must be finite"));
+        return Err(Error::parameter(
+            "SNR point",
+            channel_snr_db,
+            "must be finite",
+        ));
     }
     let mut receiver = detector.build(&settings.receiver_config())?;
     let iq = trial_input(detector, settings, channel_snr_db, noise_seed)?;
