@@ -27,6 +27,7 @@ pub mod demod;
 pub mod dsp;
 pub mod error;
 pub mod io;
+pub mod lab;
 pub mod measure;
 pub mod pipeline;
 pub mod sample;

@@ -1,0 +1,183 @@
+//! The detectors the lab can measure: any mode's receiver from [`build_receiver`], or the
+//! physical diode-and-RC envelope detector.
+
+use super::diode_receiver::DiodeReceiver;
+use super::signal::TestSignal;
+use super::theory::{full_carrier_figure_of_merit, SUPPRESSED_CARRIER_FIGURE_OF_MERIT};
+use crate::demod::{build_receiver, Mode, Receiver, ReceiverConfig};
+use crate::{Error, Result};
+use std::fmt;
+use std::str::FromStr;
+
+/// A detector under test.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Detector {
+    /// The receiver [`build_receiver`] gives for this mode (am, sam, dsb, usb, lsb).
+    Receiver(Mode),
+    /// The diode-and-RC detector ([`crate::demod::DiodeDetector`]) with this time constant.
+    Diode {
+        /// RC in seconds.
+        rc_s: f64,
+    },
+}
+
+impl Detector {
+    /// The lab's diode time constant, 50 µs: ≫ the 10.4 µs period of its 96 kHz IF, and inside
+    /// the diagonal-clipping bound √(1−μ²)/(μω_m) = 55 µs for every tone up to W = 5 kHz at
+    /// μ ≤ 0.5 (Haykin, Communication Systems, ch. 2).
+    pub const DIODE_RC_S: f64 = 50e-6;
+
+    /// The diode detector with [`DIODE_RC_S`](Self::DIODE_RC_S).
+    pub fn diode() -> Self {
+        Detector::Diode {
+            rc_s: Self::DIODE_RC_S,
+        }
+    }
+
+    /// The short name used on the command line and in the CSV (`am`, `diode`, `diode:100`
+    /// for RC = 100 µs when not the default).
+    pub fn name(&self) -> String {
+        match self {
+            Detector::Receiver(mode) => mode.name().to_string(),
+            Detector::Diode { rc_s } if *rc_s == Self::DIODE_RC_S => "diode".to_string(),
+            Detector::Diode { rc_s } => format!("diode:{}", (rc_s * 1e9).round() / 1e3),
+        }
+    }
+
+    /// A legend label saying what the detector is.
+    pub fn label(&self) -> String {
+        match self {
+            Detector::Receiver(Mode::Am) => "am (envelope)".to_string(),
+            Detector::Receiver(Mode::Sam) => "sam (synchronous)".to_string(),
+            Detector::Receiver(Mode::Dsb) => "dsb (coherent)".to_string(),
+            Detector::Receiver(mode) => format!("{mode} (coherent)"),
+            Detector::Diode { rc_s } => format!("diode, RC {:.0} µs", rc_s * 1e6),
+        }
+    }
+
+    /// The tone signal this detector is measured with.
+    pub fn test_signal(&self) -> Result<TestSignal> {
+        match self {
+            Detector::Diode { .. } | Detector::Receiver(Mode::Am | Mode::Sam) => {
+                Ok(TestSignal::FullCarrier)
+            }
+            Detector::Receiver(Mode::Dsb) => Ok(TestSignal::SuppressedCarrier),
+            Detector::Receiver(Mode::Usb) => Ok(TestSignal::UpperSideband),
+            Detector::Receiver(Mode::Lsb) => Ok(TestSignal::LowerSideband),
+            Detector::Receiver(mode) => Err(Error::parameter(
+                "--detectors",
+                mode,
+                "the lab measures am, sam, dsb, usb, lsb and diode",
+            )),
+        }
+    }
+
+    /// True for detectors fed a full carrier (CNR is defined for them).
+    pub fn has_carrier(&self) -> bool {
+        matches!(self.test_signal(), Ok(TestSignal::FullCarrier))
+    }
+
+    /// The theoretical figure of merit above threshold: μ²/(2+μ²) with a full carrier, 1 for
+    /// DSB-SC and SSB (Haykin, Communication Systems, ch. 2).
+    pub fn figure_of_merit(&self, mu: f64) -> f64 {
+        if self.has_carrier() {
+            full_carrier_figure_of_merit(mu)
+        } else {
+            SUPPRESSED_CARRIER_FIGURE_OF_MERIT
+        }
+    }
+
+    /// The detector's complete receiver; [`Error::NotYetAvailable`] for a mode not built yet.
+    pub fn build(&self, config: &ReceiverConfig) -> Result<Box<dyn Receiver>> {
+        self.test_signal()?;
+        match self {
+            Detector::Receiver(mode) => build_receiver(*mode, config),
+            Detector::Diode { rc_s } => {
+                let bandwidth = config.options.bandwidth_hz.ok_or_else(|| {
+                    Error::parameter(
+                        "--bandwidth",
+                        "none",
+                        "the diode detector needs a bandwidth",
+                    )
+                })?;
+                Ok(Box::new(DiodeReceiver::new(
+                    config.input_rate,
+                    config.offset_hz,
+                    bandwidth,
+                    *rc_s,
+                    config.options.audio_rate,
+                )?))
+            }
+        }
+    }
+}
+
+impl fmt::Display for Detector {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(&self.name())
+    }
+}
+
+impl FromStr for Detector {
+    type Err = Error;
+
+    /// `am`, `sam`, `dsb`, `usb`, `lsb`, `diode`, or `diode:<RC in µs>`.
+    fn from_str(s: &str) -> Result<Self> {
+        let s = s.trim();
+        if s.eq_ignore_ascii_case("diode") {
+            return Ok(Detector::diode());
+        }
+        if let Some(us) = s.strip_prefix("diode:") {
+            let rc_us: f64 = us.parse().map_err(|_| {
+                Error::parameter("--detectors", s, "diode:<RC in µs>, e.g. diode:100")
+            })?;
+            if !(rc_us.is_finite() && rc_us > 0.0) {
+                return Err(Error::parameter("--detectors", s, "RC must be positive"));
+            }
+            return Ok(Detector::Diode { rc_s: rc_us * 1e-6 });
+        }
+        let mode: Mode = s
+            .parse()
+            .map_err(|problem: String| Error::parameter("--detectors", s, problem))?;
+        let detector = Detector::Receiver(mode);
+        detector.test_signal()?;
+        Ok(detector)
+    }
+}
+
+/// Parses a comma-separated detector list such as `am,diode,sam`.
+pub fn parse_detectors(list: &str) -> Result<Vec<Detector>> {
+    list.split(',')
+        .filter(|s| !s.trim().is_empty())
+        .map(str::parse)
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn names_round_trip() {
+        for name in ["am", "sam", "dsb", "usb", "lsb", "diode", "diode:200"] {
+            let d: Detector = name.parse().unwrap();
+            assert_eq!(d.name(), name);
+        }
+        assert!("isb".parse::<Detector>().is_err());
+        assert!("diode:-3".parse::<Detector>().is_err());
+        assert!("fm".parse::<Detector>().is_err());
+        assert_eq!(parse_detectors("am, diode").unwrap().len(), 2);
+    }
+
+    #[test]
+    fn signals_and_theory_per_detector() {
+        let am = Detector::Receiver(Mode::Am);
+        assert_eq!(am.test_signal().unwrap(), TestSignal::FullCarrier);
+        assert!((am.figure_of_merit(1.0) - 1.0 / 3.0).abs() < 1e-12);
+        let usb = Detector::Receiver(Mode::Usb);
+        assert_eq!(usb.test_signal().unwrap(), TestSignal::UpperSideband);
+        assert_eq!(usb.figure_of_merit(0.5), 1.0);
+        assert!(!Detector::Receiver(Mode::Dsb).has_carrier());
+        assert!(Detector::diode().has_carrier());
+    }
+}

@@ -1,0 +1,163 @@
+//! The tone test signal each detector is measured with: full-carrier AM, DSB-SC, or SSB (one
+//! complex line), at complex baseband with the carrier at an offset.
+
+use crate::synth::AmToneTransmitter;
+use crate::{Complex32, Error, Result};
+use std::f64::consts::TAU;
+
+/// Which tone-modulated signal a detector is fed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum TestSignal {
+    /// A_c·(1 + μ cos ω_m t)·e^{jω_c t}.
+    FullCarrier,
+    /// A·cos(ω_m t)·e^{jω_c t}.
+    SuppressedCarrier,
+    /// A·e^{j(ω_c + ω_m)t}.
+    UpperSideband,
+    /// A·e^{j(ω_c − ω_m)t}.
+    LowerSideband,
+}
+
+/// A generator of one [`TestSignal`] scaled to a given mean power mean|s|².
+#[derive(Debug, Clone)]
+pub enum ToneSource {
+    /// Full-carrier AM from the project's transmitter.
+    FullCarrier(AmToneTransmitter),
+    /// DSB-SC or SSB, phases in f64 cycles.
+    Suppressed {
+        /// The signal kind.
+        kind: TestSignal,
+        /// Peak amplitude A.
+        amplitude: f64,
+        /// Tone step in cycles per sample.
+        tone_step: f64,
+        /// Carrier step in cycles per sample.
+        carrier_step: f64,
+        /// Sample index.
+        n: u64,
+    },
+}
+
+impl ToneSource {
+    /// A source of `kind` with mean power `power`, index `mu` (full carrier only), tone and
+    /// carrier offset in Hz, at `rate`.
+    pub fn new(
+        kind: TestSignal,
+        power: f64,
+        mu: f64,
+        tone_hz: f64,
+        offset_hz: f64,
+        rate: f64,
+    ) -> Result<Self> {
+        if !(power.is_finite() && power > 0.0) {
+            return Err(Error::parameter("signal power", power, "must be positive"));
+        }
+        match kind {
+            TestSignal::FullCarrier => {
+                // mean|s|² = A_c²(1 + μ²/2) for a tone.
+                let a_c = (power / (1.0 + mu * mu / 2.0)).sqrt();
+                let tx = AmToneTransmitter::new(a_c, mu, tone_hz, offset_hz, rate)?;
+                Ok(ToneSource::FullCarrier(tx))
+            }
+            _ => {
+                // Validates the tone and offset the same way as the full-carrier transmitter.
+                AmToneTransmitter::new(1.0, 0.0, tone_hz, offset_hz, rate)?;
+                let mean_square = if kind == TestSignal::SuppressedCarrier {
+                    0.5
+                } else {
+                    1.0
+                };
+                Ok(ToneSource::Suppressed {
+                    kind,
+                    amplitude: (power / mean_square).sqrt(),
+                    tone_step: tone_hz / rate,
+                    carrier_step: offset_hz / rate,
+                    n: 0,
+                })
+            }
+        }
+    }
+
+    /// Fills `out` with the next samples.
+    pub fn fill(&mut self, out: &mut [Complex32]) {
+        match self {
+            ToneSource::FullCarrier(tx) => tx.fill(out),
+            ToneSource::Suppressed {
+                kind,
+                amplitude,
+                tone_step,
+                carrier_step,
+                n,
+            } => {
+                for s in out.iter_mut() {
+                    let k = *n as f64;
+                    // Phases in cycles reduced to [0, 1) before the multiply by 2π.
+                    let tone = (k * *tone_step).fract();
+                    let carrier = (k * *carrier_step).fract();
+                    *s = match kind {
+                        TestSignal::SuppressedCarrier => {
+                            Complex32::from_polar(1.0, (TAU * carrier) as f32)
+                                * (*amplitude * (TAU * tone).cos()) as f32
+                        }
+                        TestSignal::UpperSideband => Complex32::from_polar(
+                            *amplitude as f32,
+                            (TAU * (carrier + tone)) as f32,
+                        ),
+                        _ => Complex32::from_polar(
+                            *amplitude as f32,
+                            (TAU * (carrier - tone)) as f32,
+                        ),
+                    };
+                    *n += 1;
+                }
+            }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn mean_power(x: &[Complex32]) -> f64 {
+        x.iter().map(|z| f64::from(z.norm_sqr())).sum::<f64>() / x.len() as f64
+    }
+
+    #[test]
+    fn every_kind_has_the_requested_power() {
+        // Whole tone periods (96 kS/s, 1 kHz, 9600 samples), so the means are exact up to f32.
+        for kind in [
+            TestSignal::FullCarrier,
+            TestSignal::SuppressedCarrier,
+            TestSignal::UpperSideband,
+            TestSignal::LowerSideband,
+        ] {
+            let mut src = ToneSource::new(kind, 0.1, 0.5, 1000.0, 12_000.0, 96_000.0).unwrap();
+            let mut x = vec![Complex32::default(); 9600];
+            src.fill(&mut x);
+            assert!((mean_power(&x) / 0.1 - 1.0).abs() < 1e-5, "{kind:?}");
+        }
+    }
+
+    #[test]
+    fn sidebands_sit_on_the_right_side() {
+        // The phase advance per sample of an SSB line is 2π(f_c ± f_m)/fs.
+        for (kind, want) in [
+            (TestSignal::UpperSideband, 13_000.0),
+            (TestSignal::LowerSideband, 11_000.0),
+        ] {
+            let mut src = ToneSource::new(kind, 1.0, 0.0, 1000.0, 12_000.0, 96_000.0).unwrap();
+            let mut x = vec![Complex32::default(); 2];
+            src.fill(&mut x);
+            let f = f64::from((x[1] * x[0].conj()).arg()) / TAU * 96_000.0;
+            assert!((f - want).abs() < 0.1, "{kind:?}: {f}");
+        }
+    }
+
+    #[test]
+    fn rejects_bad_parameters() {
+        assert!(ToneSource::new(TestSignal::UpperSideband, 0.0, 0.0, 1e3, 0.0, 8e3).is_err());
+        assert!(ToneSource::new(TestSignal::UpperSideband, 1.0, 0.0, 5e3, 0.0, 8e3).is_err());
+        assert!(ToneSource::new(TestSignal::FullCarrier, 1.0, -1.0, 1e3, 0.0, 8e3).is_err());
+    }
+}
