@@ -54,5 +54,10 @@ fn benches(c: &mut Criterion) {
     );
 }
 
-criterion_group!(dsp, benches);
+// Criterion's own charts need system fonts that plotters (ab_glyph) does not load here.
+criterion_group! {
+    name = dsp;
+    config = Criterion::default().without_plots();
+    targets = benches
+}
 criterion_main!(dsp);

@@ -55,5 +55,10 @@ fn ssb_chain(c: &mut Criterion) {
     group.finish();
 }
 
-criterion_group!(benches, ssb_chain);
+// Criterion's own charts need system fonts that plotters (ab_glyph) does not load here.
+criterion_group! {
+    name = benches;
+    config = Criterion::default().without_plots();
+    targets = ssb_chain
+}
 criterion_main!(benches);

@@ -33,22 +33,8 @@ fn main() -> anyhow::Result<()> {
     std::fs::create_dir_all(&out_dir)?;
     lab::write_csv(&result, &out_dir.join("sweep.csv"))?;
     lab::write_png(&result, &out_dir.join("sweep.png"))?;
-    for curve in &result.curves {
-        println!("{}:", curve.detector.label());
-        for loss in [1.0, 3.0] {
-            match curve.threshold(loss) {
-                Some(t) => println!(
-                    "  {loss} dB below theory at channel SNR {:.2} dB{}",
-                    t.channel_snr_db,
-                    t.cnr_db
-                        .map_or(String::new(), |c| format!(", CNR {c:.2} dB"))
-                ),
-                None => println!("  never {loss} dB below theory in the sweep"),
-            }
-        }
-        if let Some(s) = curve.slope(20.0, 35.0) {
-            println!("  slope over channel SNR 20…35 dB: {s:.2} dB/dB");
-        }
+    for line in lab::summary_lines(&result) {
+        println!("{line}");
     }
     Ok(())
 }

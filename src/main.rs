@@ -4,6 +4,7 @@
 use amrx::demod::{LoopSettings, Mode, ReceiverOptions, Sideband, SsbMethod};
 use amrx::dsp::AgcSettings;
 use amrx::io::{InputOptions, SampleFormat};
+use amrx::lab::{self, Axis, SweepSpec};
 use amrx::pipeline::demo::{default_demo_dir, run_demo, DemoRow};
 use amrx::pipeline::synth_job::run_scene;
 use amrx::pipeline::{info, run_demod, AudioTarget, DemodRequest, Tuning};
@@ -44,6 +45,8 @@ enum Command {
         #[arg(long, value_parser = parse_format)]
         datatype: Option<SampleFormat>,
     },
+    /// Measure detectors' output SNR against input SNR in noise, with theory overlaid.
+    Sweep(SweepArgs),
     /// Write an invented scene of stations as SigMF, receive each, and print what was measured.
     Demo {
         /// Folder for the recording, audio and reports (default: amrx-demo in the temp folder).
@@ -57,7 +60,7 @@ struct InputArgs {
     #[arg(long, value_parser = parse_format)]
     format: Option<SampleFormat>,
     /// Sample rate in Hz (raw input, or a SigMF recording without core:sample_rate).
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     rate: Option<f64>,
     /// Channel of a multi-channel SigMF recording (0-based).
     #[arg(long, default_value_t = 0)]
@@ -75,13 +78,13 @@ struct DemodArgs {
     #[arg(long, allow_negative_numbers = true, conflicts_with = "carrier")]
     offset: Option<f64>,
     /// Absolute carrier frequency in Hz (needs the recording's centre frequency).
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     carrier: Option<f64>,
     /// Audio sample rate in Hz.
-    #[arg(long, default_value_t = 48000.0)]
+    #[arg(long, allow_negative_numbers = true, default_value_t = 48000.0)]
     audio_rate: f64,
     /// Audio bandwidth in Hz (the mode's default when absent).
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     bandwidth: Option<f64>,
     /// Sideband to keep (sam only).
     #[arg(long, value_enum)]
@@ -93,10 +96,10 @@ struct DemodArgs {
     #[arg(long)]
     carrier_lock: bool,
     /// Carrier-loop noise bandwidth in Hz (modes with a carrier loop).
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     loop_bandwidth: Option<f64>,
     /// Carrier-loop damping (modes with a carrier loop).
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     loop_damping: Option<f64>,
     /// Gain control (the mode's default when absent).
     #[arg(long, value_enum, conflicts_with = "gain")]
@@ -118,6 +121,58 @@ struct DemodArgs {
     quiet: bool,
     #[command(flatten)]
     input_options: InputArgs,
+}
+
+#[derive(Args, Debug)]
+struct SweepArgs {
+    /// Detectors, comma-separated: am, sam, dsb, usb, lsb, diode, diode:RC_MICROSECONDS.
+    #[arg(long, default_value = "am,sam,dsb,usb")]
+    detectors: String,
+    /// What the input axis sets: channel (baseband) SNR or carrier-to-noise ratio.
+    #[arg(long, value_enum, default_value = "snr")]
+    axis: AxisArg,
+    /// First input value in dB.
+    #[arg(long, allow_negative_numbers = true, default_value_t = -12.0)]
+    from: f64,
+    /// Last input value in dB.
+    #[arg(long, allow_negative_numbers = true, default_value_t = 36.0)]
+    to: f64,
+    /// Step in dB.
+    #[arg(long, default_value_t = 2.0)]
+    step: f64,
+    /// Monte Carlo trials per point.
+    #[arg(long, default_value_t = 8)]
+    trials: usize,
+    /// Seconds of signal per trial (after settling).
+    #[arg(long, default_value_t = 0.5)]
+    seconds: f64,
+    /// Modulation index of the full-carrier test signal.
+    #[arg(long, default_value_t = 0.5)]
+    mu: f64,
+    /// Test tone in Hz.
+    #[arg(long, default_value_t = 1000.0)]
+    tone: f64,
+    /// Message bandwidth W in Hz.
+    #[arg(long, default_value_t = 5000.0)]
+    bandwidth: f64,
+    /// Seed of every random process.
+    #[arg(long, default_value_t = 1)]
+    seed: u64,
+    /// CSV output.
+    #[arg(long, default_value = "sweep.csv")]
+    csv: PathBuf,
+    /// PNG plot output.
+    #[arg(long, default_value = "sweep.png")]
+    png: PathBuf,
+    /// No progress bar.
+    #[arg(long)]
+    quiet: bool,
+}
+
+#[derive(ValueEnum, Clone, Copy, Debug)]
+enum AxisArg {
+    Snr,
+    Cnr,
 }
 
 #[derive(ValueEnum, Clone, Copy, Debug)]
@@ -175,6 +230,7 @@ fn main() -> ExitCode {
             out,
             datatype,
         } => synth(&scene, &out, datatype),
+        Command::Sweep(args) => sweep(&args),
         Command::Demo { dir } => demo(dir.unwrap_or_else(default_demo_dir)),
     };
     match outcome {
@@ -248,7 +304,7 @@ fn demod(args: DemodArgs) -> Result<(), String> {
         audio,
         report: args.report.clone(),
     };
-    let bar = progress_bar(args.quiet);
+    let bar = progress_bar(args.quiet, "samples");
     let report =
         run_demod(&request, &|n| bar.set_position(n)).map_err(|e| with_input(&args.input, e));
     bar.finish_and_clear();
@@ -290,14 +346,16 @@ fn receiver_options(args: &DemodArgs) -> ReceiverOptions {
     }
 }
 
-fn progress_bar(quiet: bool) -> ProgressBar {
+fn progress_bar(quiet: bool, unit: &str) -> ProgressBar {
     if quiet || !std::io::stderr().is_terminal() {
         return ProgressBar::with_draw_target(None, ProgressDrawTarget::hidden());
     }
     let bar = ProgressBar::no_length();
     bar.set_style(
-        ProgressStyle::with_template("{spinner} {human_pos} samples  {per_sec}  {elapsed}")
-            .unwrap_or_else(|_| ProgressStyle::default_spinner()),
+        ProgressStyle::with_template(&format!(
+            "{{spinner}} {{human_pos}} {unit}  {{per_sec}}  {{elapsed}}"
+        ))
+        .unwrap_or_else(|_| ProgressStyle::default_spinner()),
     );
     bar
 }
@@ -344,6 +402,34 @@ fn synth(scene: &Path, out: &Path, datatype: Option<SampleFormat>) -> Result<(),
     Ok(())
 }
 
+fn sweep(args: &SweepArgs) -> Result<(), String> {
+    let detectors = lab::parse_detectors(&args.detectors).map_err(|e| e.to_string())?;
+    let axis = match args.axis {
+        AxisArg::Snr => Axis::Snr,
+        AxisArg::Cnr => Axis::Cnr,
+    };
+    let points = SweepSpec::range_db(args.from, args.to, args.step).map_err(|e| e.to_string())?;
+    let mut spec = SweepSpec::new(detectors, axis, points);
+    spec.trials = args.trials;
+    spec.seed = args.seed;
+    spec.trial.seconds = args.seconds;
+    spec.trial.mu = args.mu;
+    spec.trial.tone_hz = args.tone;
+    spec.trial.bandwidth_hz = args.bandwidth;
+    let bar = progress_bar(args.quiet, "trials");
+    bar.set_length(spec.total_trials() as u64);
+    let result = lab::run_sweep(&spec, |p| bar.set_position(p.done as u64));
+    bar.finish_and_clear();
+    let result = result.map_err(|e| e.to_string())?;
+    lab::write_csv(&result, &args.csv).map_err(|e| e.to_string())?;
+    lab::write_png(&result, &args.png).map_err(|e| e.to_string())?;
+    for line in lab::summary_lines(&result) {
+        println!("{line}");
+    }
+    println!("wrote {} and {}", args.csv.display(), args.png.display());
+    Ok(())
+}
+
 fn demo(dir: PathBuf) -> Result<(), String> {
     let (recording, rows) = run_demo(&dir).map_err(|e| e.to_string())?;
     println!(
@@ -351,8 +437,17 @@ fn demo(dir: PathBuf) -> Result<(), String> {
         recording.display()
     );
     println!(
-        "{:<8} {:<4} {:>10} {:>11} {:>7} {:>6} {:>6} {:>8} {:>7}  notes",
-        "station", "mode", "offset Hz", "carrier Hz", "CNR dB", "mod+", "mod-", "tone Hz", "SINAD"
+        "{:<8} {:<4} {:>10} {:>11} {:>5} {:>7} {:>6} {:>6} {:>8} {:>7}  notes",
+        "station",
+        "mode",
+        "offset Hz",
+        "carrier Hz",
+        "lock",
+        "CNR dB",
+        "mod+",
+        "mod-",
+        "tone Hz",
+        "SINAD"
     );
     for row in &rows {
         println!("{}", demo_line(row));
@@ -371,8 +466,8 @@ fn demo_line(row: &DemoRow) -> String {
     );
     match &row.outcome {
         Err(why) => format!(
-            "{head} {:>11} {:>7} {:>6} {:>6} {:>8} {:>7}  {why}",
-            "-", "-", "-", "-", "-", "-"
+            "{head} {:>11} {:>5} {:>7} {:>6} {:>6} {:>8} {:>7}  {why}",
+            "-", "-", "-", "-", "-", "-", "-"
         ),
         Ok(rx) => {
             let r = &rx.report;
@@ -381,8 +476,9 @@ fn demo_line(row: &DemoRow) -> String {
             };
             let depth = r.modulation_depth;
             format!(
-                "{head} {:>11} {:>7} {:>6} {:>6} {:>8} {:>7}  {}",
+                "{head} {:>11} {:>5} {:>7} {:>6} {:>6} {:>8} {:>7}  {}",
                 opt(r.carrier_offset_hz, 1),
+                r.locked.map_or("-", |l| if l { "yes" } else { "no" }),
                 opt(r.cnr_db, 1),
                 opt(depth.map(|d| 100.0 * d.positive), 0),
                 opt(depth.map(|d| 100.0 * d.negative), 0),

@@ -217,13 +217,17 @@ fn demo_runs_and_prints_its_table() {
         "AMRX-B",
         "AMRX-C",
         "AMRX-D",
+        "AMRX-E",
+        " sam ",
+        " usb ",
+        " dsb ",
         "overmodulation",
-        "not yet available",
     ] {
         assert!(text.contains(needle), "'{needle}' missing from:\n{text}");
     }
     assert!(dir.join("demo-scene.sigmf-meta").exists());
-    assert!(dir.join("amrx-a.wav").exists());
+    assert!(dir.join("amrx-a-am.wav").exists());
+    assert!(!text.contains("not yet available"), "{text}");
 }
 
 /// A real IF sampled by an audio interface (ri16_le): the receiver treats it as x + 0j, tunes

@@ -322,13 +322,81 @@ fn output_path_that_cannot_be_written() {
 }
 
 #[test]
-fn reserved_mode_is_not_yet_available() {
-    let dir = scratch_dir("reserved");
+fn loop_parameters_out_of_range() {
+    let dir = scratch_dir("loop-params");
+    let rec = good_recording(&dir);
+    let out = out_wav(&dir);
+    for (option, value) in [
+        ("--loop-bandwidth", "0"),
+        ("--loop-bandwidth", "500000"),
+        ("--loop-damping", "-1"),
+    ] {
+        assert_one_line_error(
+            &[
+                "demod", &rec, "--mode", "sam", "--offset", "20000", option, value, "--out", &out,
+            ],
+            &["good.sigmf-meta", option],
+        );
+    }
+}
+
+#[test]
+fn loop_option_on_a_mode_without_a_loop() {
+    let dir = scratch_dir("loop-on-am");
     let rec = good_recording(&dir);
     assert_one_line_error(
-        &["demod", &rec, "--mode", "vsb", "--out", &out_wav(&dir)],
-        &["not yet available", "vsb"],
+        &[
+            "demod",
+            &rec,
+            "--mode",
+            "am",
+            "--loop-bandwidth",
+            "20",
+            "--out",
+            &out_wav(&dir),
+        ],
+        &["good.sigmf-meta", "--loop-bandwidth"],
     );
+}
+
+/// Pure noise: the loop never locks; the run still succeeds, with locked = false, a warning,
+/// and finite audio.
+#[test]
+fn pure_noise_reports_no_lock() {
+    let dir = scratch_dir("noise-only");
+    let mut noise = vec![Complex32::default(); 240_000];
+    amrx::synth::ComplexNoise::new(0.01, 3).add_to(&mut noise);
+    let rec = write_sigmf(&dir, "noise", SampleFormat::Cf32Le, 240_000.0, &noise);
+    for mode in ["sam", "dsb", "vsb"] {
+        let wav = dir.join(format!("{mode}.wav"));
+        let report = dir.join(format!("{mode}.json"));
+        let out = amrx(&[
+            "demod",
+            &rec.display().to_string(),
+            "--mode",
+            mode,
+            "--offset",
+            "20000",
+            "--out",
+            &wav.display().to_string(),
+            "--report",
+            &report.display().to_string(),
+        ]);
+        assert!(
+            out.status.success(),
+            "{mode}: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let json: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(&report).unwrap()).unwrap();
+        assert_eq!(json["locked"], false, "{mode}: {json}");
+        assert!(
+            json["warnings"].to_string().contains("lock"),
+            "{mode}: {json}"
+        );
+        let (audio, _) = common::read_wav(&wav);
+        assert!(audio.iter().all(|x| x.is_finite()), "{mode}");
+    }
 }
 
 #[test]

@@ -18,6 +18,7 @@ pub mod diode_receiver;
 pub mod plot;
 pub mod rc_study;
 pub mod signal;
+pub mod summary;
 pub mod sweep;
 pub mod theory;
 pub mod trial;
@@ -28,6 +29,7 @@ pub use diode_receiver::DiodeReceiver;
 pub use plot::write_png;
 pub use rc_study::{measure_rc, RcMeasurement};
 pub use signal::{TestSignal, ToneSource};
+pub use summary::summary_lines;
 pub use sweep::{run_sweep, Axis, Curve, Progress, SweepPoint, SweepResult, SweepSpec, Threshold};
 pub use trial::{run_trial, trial_seed, TrialSettings, SIGNAL_POWER};
 

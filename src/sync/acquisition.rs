@@ -231,6 +231,15 @@ impl<L: CarrierLoop> CarrierAcquisition<L> {
         Some(scale * frequency)
     }
 
+    /// A loop already locked near the found line is left alone: retuning it would clear its
+    /// integrator and put a phase transient into the audio, which on a full carrier is a loud
+    /// thump. "Near" is within two search bins (common practice, no source).
+    fn retune_helps(&self, frequency_hz: f64) -> bool {
+        let near = 2.0 * self.spectrum.bin_width();
+        !(self.carrier_loop.is_locked()
+            && (frequency_hz - self.carrier_loop.frequency_hz()).abs() < near)
+    }
+
     fn run_loop(&mut self, input: &[Complex32], output: &mut [Complex32]) {
         for (y, &x) in output.iter_mut().zip(input) {
             *y = self.carrier_loop.next_sample(x);
@@ -251,7 +260,7 @@ impl<L: CarrierLoop> Block for CarrierAcquisition<L> {
             self.seen += before;
             if self.seen == self.window {
                 self.found = self.search();
-                if let Some(frequency) = self.found {
+                if let Some(frequency) = self.found.filter(|&f| self.retune_helps(f)) {
                     self.carrier_loop.retune(frequency);
                 }
             }

@@ -37,6 +37,10 @@ pub struct CostasLoop {
     samples: u64,
     /// Samples before the lock detector may decide: one loop time constant 1/B_L.
     warm_up: u64,
+    /// False until the NCO phase has been set from the first non-zero sample.
+    aligned: bool,
+    /// (1 − α)^samples: how much of the arm averages' weight is still missing.
+    decay: f64,
     locked: bool,
 }
 
@@ -75,6 +79,8 @@ impl CostasLoop {
             samples: 0,
             warm_up: (config.sample_rate / config.loop_bandwidth_hz).ceil() as u64,
             locked: false,
+            aligned: false,
+            decay: 1.0,
             config,
         })
     }
@@ -83,14 +89,14 @@ impl CostasLoop {
     /// (the message is on its real part).
     #[inline]
     pub fn next_sample(&mut self, x: Complex32) -> Complex32 {
+        if !self.aligned {
+            self.align_to(x);
+        }
         let (sin, cos) = self.phase.sin_cos();
         let y = x * Complex32::new(cos as f32, -(sin as f32));
         let (i, q) = (f64::from(y.re), f64::from(y.im));
         self.update_arms(i, q);
-        let scale = self
-            .i_power
-            .max(0.1 * (self.i_power + self.q_power))
-            .max(f64::MIN_POSITIVE);
+        let scale = self.detector_scale();
         let error = i * q / scale;
         self.integrator += self.gains.k2 * error;
         self.phase += self.nominal + self.gains.k1 * error + self.integrator;
@@ -110,6 +116,7 @@ impl CostasLoop {
             self.i_power += self.alpha * (i * i - self.i_power);
             self.q_power += self.alpha * (q * q - self.q_power);
         }
+        self.decay *= 1.0 - self.alpha;
         self.lock_i_power += self.alpha * (i * i - self.lock_i_power);
         self.lock_q_power += self.alpha * (q * q - self.lock_q_power);
         self.samples += 1;
@@ -119,6 +126,17 @@ impl CostasLoop {
         } else {
             metric > LOCK_ON
         };
+    }
+
+    /// The in-phase power the detector divides by: the zero-started average corrected by the
+    /// weight it has gathered (1 − (1 − α)^n), so that neither the front end's start-up transient
+    /// nor a seeded first sample makes the loop gain huge for the first fraction of a second;
+    /// never below a tenth of the total arm power.
+    #[inline]
+    fn detector_scale(&self) -> f64 {
+        let weight = (1.0 - self.decay).max(f64::MIN_POSITIVE);
+        let (i, q) = (self.lock_i_power / weight, self.lock_q_power / weight);
+        i.max(0.1 * (i + q)).max(f64::MIN_POSITIVE)
     }
 
     /// The averaged cos 2φ_err: (I² − Q²)/(I² + Q²), near 1 when locked on a clean signal; 0
@@ -138,6 +156,17 @@ impl CostasLoop {
         self.locked
     }
 
+    /// Starts the NCO at the phase of the first non-zero sample, so the loop never begins near
+    /// its unstable point 180° away, where it can hang for a long time before pulling in
+    /// (Gardner, Phaselock Techniques, "hang-up"; common practice, no source for the remedy).
+    #[cold]
+    fn align_to(&mut self, x: Complex32) {
+        if x.re != 0.0 || x.im != 0.0 {
+            self.phase = f64::from(x.im).atan2(f64::from(x.re));
+            self.aligned = true;
+        }
+    }
+
     /// The tracked carrier frequency in Hz.
     pub fn frequency_hz(&self) -> f64 {
         (self.nominal + self.integrator) * self.config.sample_rate / TAU
@@ -146,6 +175,13 @@ impl CostasLoop {
     /// The NCO phase in radians, in [−π, π].
     pub fn phase(&self) -> f64 {
         self.phase
+    }
+
+    /// Sets the NCO phase (radians), which also stops the loop from aligning itself to its
+    /// first sample: for starting from a known phase error.
+    pub fn set_phase(&mut self, radians: f64) {
+        self.phase = radians;
+        self.aligned = true;
     }
 
     /// Moves the NCO to `frequency_hz` and clears the integrator.
@@ -199,6 +235,7 @@ mod tests {
     fn settled_phase_error(start_deg: f64) -> f64 {
         let x = dsb(0.0, start_deg.to_radians(), 48_000);
         let mut costas = CostasLoop::new(PllConfig::new(FS, 30.0)).unwrap();
+        costas.set_phase(0.0); // the loop starts `start_deg` away from the carrier
         process_to_vec(&mut costas, &x);
         assert!(costas.is_locked());
         let error = (start_deg.to_radians() - costas.phase()).to_degrees();

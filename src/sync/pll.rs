@@ -58,6 +58,8 @@ pub struct CarrierPll {
     /// Samples before the lock detector may decide: one loop time constant 1/B_L.
     warm_up: u64,
     locked: bool,
+    /// False until the NCO phase has been set from the first non-zero sample.
+    aligned: bool,
 }
 
 /// One-pole averages of the de-rotated signal's arms.
@@ -78,6 +80,7 @@ struct ArmAverages {
     lock_in_phase: f64,
     lock_quadrature: f64,
     lock_power: f64,
+    lock_magnitude: f64,
     decay: f64,
     samples: u64,
 }
@@ -94,6 +97,7 @@ impl ArmAverages {
             lock_in_phase: 0.0,
             lock_quadrature: 0.0,
             lock_power: 0.0,
+            lock_magnitude: 0.0,
             decay: 1.0,
             samples: 0,
         }
@@ -108,6 +112,7 @@ impl ArmAverages {
         self.lock_in_phase += a * (re - self.lock_in_phase);
         self.lock_quadrature += a * (im - self.lock_quadrature);
         self.lock_power += a * (power - self.lock_power);
+        self.lock_magnitude += a * (magnitude - self.lock_magnitude);
         self.decay *= 1.0 - a;
         self.samples += 1;
         if !self.started {
@@ -132,8 +137,12 @@ impl ArmAverages {
     /// below a tenth of the average magnitude (before lock the in-phase arm may be near zero).
     #[inline]
     fn detector_scale(&self) -> f64 {
-        self.in_phase
-            .max(0.1 * self.magnitude)
+        // Zero-started averages corrected by their gathered weight 1 − (1 − α)^n: the seeded
+        // ones remember the front end's tiny start-up transient for 1/α samples and made the
+        // loop gain huge (and the loop wander) for the first fraction of a second.
+        let weight = (1.0 - self.decay).max(f64::MIN_POSITIVE);
+        (self.lock_in_phase / weight)
+            .max(0.1 * self.lock_magnitude / weight)
             .max(f64::MIN_POSITIVE)
     }
 
@@ -197,12 +206,16 @@ impl CarrierPll {
             arms: ArmAverages::new(alpha),
             warm_up: (config.sample_rate / config.loop_bandwidth_hz).ceil() as u64,
             locked: false,
+            aligned: false,
         })
     }
 
     /// One sample: de-rotates `x` by the NCO, updates the loop, returns the de-rotated sample.
     #[inline]
     pub fn next_sample(&mut self, x: Complex32) -> Complex32 {
+        if !self.aligned {
+            self.align_to(x);
+        }
         let (sin, cos) = self.phase.sin_cos();
         let nco = Complex32::new(cos as f32, -(sin as f32));
         let y = x * nco;
@@ -226,6 +239,17 @@ impl CarrierPll {
             self.locked = in_phase > quadrature.abs() && statistic > LOCK_OFF_STATISTIC;
         } else if in_phase > 2.0 * quadrature.abs() && statistic > LOCK_ON_STATISTIC {
             self.locked = true;
+        }
+    }
+
+    /// Starts the NCO at the phase of the first non-zero sample, so the loop never begins near
+    /// its unstable point 180° away, where it can hang for a long time before pulling in
+    /// (Gardner, Phaselock Techniques, "hang-up"; common practice, no source for the remedy).
+    #[cold]
+    fn align_to(&mut self, x: Complex32) {
+        if x.re != 0.0 || x.im != 0.0 {
+            self.phase = f64::from(x.im).atan2(f64::from(x.re));
+            self.aligned = true;
         }
     }
 
