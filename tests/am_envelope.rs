@@ -200,3 +200,27 @@ fn other_rates_and_audio_rates() {
         assert!(sinad >= 35.0, "{rate} → {audio_rate}: SINAD {sinad:.1}");
     }
 }
+
+/// With an automatic gain setting the AM receiver levels on the carrier: two stations 20 dB
+/// apart come out at the same audio level (within 0.5 dB), where without AGC they differ by 20.
+#[test]
+fn carrier_agc_levels_the_audio() {
+    let level = |carrier: f64, agc: amrx::dsp::AgcSettings| {
+        let mut tx =
+            amrx::synth::AmToneTransmitter::new(carrier, 0.5, 1000.0, 50_000.0, 240_000.0).unwrap();
+        let mut iq = vec![Complex32::default(); 240_000 * 3];
+        tx.fill(&mut iq);
+        let mut config = AmConfig::new(240_000.0, 50_000.0);
+        config.agc = agc;
+        let audio = process_to_vec(&mut AmReceiver::new(config).unwrap(), &iq);
+        let tail = &audio[audio.len() / 2..];
+        10.0 * (tail.iter().map(|x| f64::from(*x).powi(2)).sum::<f64>() / tail.len() as f64).log10()
+    };
+    let slow = amrx::dsp::AgcSettings::SLOW;
+    let off = amrx::dsp::AgcSettings::OFF;
+    let levelled = level(0.3, slow) - level(0.03, slow);
+    let raw = level(0.3, off) - level(0.03, off);
+    eprintln!("audio level difference for carriers 20 dB apart: {levelled:.2} dB with AGC, {raw:.2} dB without");
+    assert!(levelled.abs() < 0.5, "{levelled}");
+    assert!((raw - 20.0).abs() < 0.1, "{raw}");
+}

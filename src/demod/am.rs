@@ -10,6 +10,7 @@ use super::envelope::EnvelopeDetector;
 use super::front_end::{validate_tuning, ChannelFrontEnd, FrontEndConfig, CHUNK};
 use super::receiver::{Measurements, Receiver};
 use crate::block::{pieces_bound, Block};
+use crate::dsp::{Agc, AgcSettings};
 use crate::measure::ModulationMeter;
 use crate::{Complex32, Result};
 
@@ -33,6 +34,9 @@ pub struct AmConfig {
     pub bandwidth_hz: f64,
     /// Output audio rate in Hz.
     pub audio_rate: f64,
+    /// Gain control on the detected envelope before the carrier is removed, so an automatic
+    /// setting follows the carrier level (classic carrier-derived AGC); off by default.
+    pub agc: AgcSettings,
 }
 
 impl AmConfig {
@@ -48,6 +52,7 @@ impl AmConfig {
             offset_hz,
             bandwidth_hz: Self::DEFAULT_BANDWIDTH_HZ,
             audio_rate: Self::DEFAULT_AUDIO_RATE,
+            agc: AgcSettings::OFF,
         }
     }
 
@@ -73,6 +78,7 @@ pub struct AmReceiver {
     config: AmConfig,
     front: ChannelFrontEnd,
     envelope: EnvelopeDetector,
+    agc: Agc,
     audio: AudioStage,
     meter: ModulationMeter,
     /// Envelope samples still to skip before metering: the filters' start-up transient would
@@ -80,6 +86,7 @@ pub struct AmReceiver {
     settling: usize,
     channel: Vec<Complex32>,
     detected: Vec<f32>,
+    levelled: Vec<f32>,
 }
 
 impl AmReceiver {
@@ -100,6 +107,8 @@ impl AmReceiver {
             meter: ModulationMeter::new(rate),
             settling: front.settling_samples(),
             envelope: EnvelopeDetector::new(),
+            agc: Agc::new(config.agc, rate)?,
+            levelled: vec![0.0; mid],
             channel: vec![Complex32::default(); mid],
             detected: vec![0.0; mid],
             front,
@@ -130,7 +139,9 @@ impl AmReceiver {
         let skip = self.settling.min(n);
         self.settling -= skip;
         self.meter.push(&self.detected[skip..n]);
-        self.audio.process(&self.detected[..n], output).1
+        self.agc
+            .process(&self.detected[..n], &mut self.levelled[..n]);
+        self.audio.process(&self.levelled[..n], output).1
     }
 
     fn carrier_measurements(&self, m: &mut Measurements) {
@@ -184,6 +195,7 @@ impl Block for AmReceiver {
 
     fn reset(&mut self) {
         self.front.reset();
+        self.agc.reset();
         self.audio.reset();
         self.meter = ModulationMeter::new(self.detection_rate());
         self.settling = self.front.settling_samples();

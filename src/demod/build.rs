@@ -26,6 +26,7 @@ pub fn build_receiver(mode: Mode, config: &ReceiverConfig) -> Result<Box<dyn Rec
                     .bandwidth_hz
                     .unwrap_or(AmConfig::DEFAULT_BANDWIDTH_HZ),
                 audio_rate: config.options.audio_rate,
+                agc: config.options.agc.unwrap_or(AgcSettings::OFF),
             };
             Ok(Box::new(AmReceiver::new(am)?))
         }
