@@ -8,8 +8,9 @@
 use super::audio_stage::{validate_audio, AudioStage};
 use super::envelope::EnvelopeDetector;
 use super::front_end::{validate_tuning, ChannelFrontEnd, FrontEndConfig, CHUNK};
+use super::pieces::Pieces;
 use super::receiver::{Measurements, Receiver};
-use crate::block::{pieces_bound, Block};
+use crate::block::Block;
 use crate::dsp::{Agc, AgcSettings};
 use crate::measure::ModulationMeter;
 use crate::{Complex32, Result};
@@ -126,24 +127,6 @@ impl AmReceiver {
         &self.config
     }
 
-    /// Most outputs one piece of `n ≤ CHUNK` inputs can give.
-    fn piece_bound(&self, n: usize) -> usize {
-        self.audio.max_output_len(self.front.max_output_len(n))
-    }
-
-    /// Runs one piece of at most [`CHUNK`] inputs through every stage; returns outputs written.
-    fn process_piece(&mut self, input: &[Complex32], output: &mut [f32]) -> usize {
-        let (_, n) = self.front.process(input, &mut self.channel);
-        self.envelope
-            .process(&self.channel[..n], &mut self.detected[..n]);
-        let skip = self.settling.min(n);
-        self.settling -= skip;
-        self.meter.push(&self.detected[skip..n]);
-        self.agc
-            .process(&self.detected[..n], &mut self.levelled[..n]);
-        self.audio.process(&self.levelled[..n], output).1
-    }
-
     fn carrier_measurements(&self, m: &mut Measurements) {
         let search = (0.5 * self.config.bandwidth_hz).min(CARRIER_SEARCH_HZ);
         match self.front.find_carrier(search) {
@@ -166,26 +149,36 @@ impl AmReceiver {
     }
 }
 
+impl Pieces for AmReceiver {
+    /// Most outputs one piece of `n ≤ CHUNK` inputs can give.
+    fn piece_bound(&self, n: usize) -> usize {
+        self.audio.max_output_len(self.front.max_output_len(n))
+    }
+
+    /// Runs one piece of at most [`CHUNK`] inputs through every stage; returns outputs written.
+    fn process_piece(&mut self, input: &[Complex32], output: &mut [f32]) -> usize {
+        let (_, n) = self.front.process(input, &mut self.channel);
+        self.envelope
+            .process(&self.channel[..n], &mut self.detected[..n]);
+        let skip = self.settling.min(n);
+        self.settling -= skip;
+        self.meter.push(&self.detected[skip..n]);
+        self.agc
+            .process(&self.detected[..n], &mut self.levelled[..n]);
+        self.audio.process(&self.levelled[..n], output).1
+    }
+}
+
 impl Block for AmReceiver {
     type Input = Complex32;
     type Output = f32;
 
     fn process(&mut self, input: &[Complex32], output: &mut [f32]) -> (usize, usize) {
-        let mut consumed = 0;
-        let mut produced = 0;
-        while consumed < input.len() {
-            let n = CHUNK.min(input.len() - consumed);
-            if self.piece_bound(n) > output.len() - produced {
-                break;
-            }
-            produced += self.process_piece(&input[consumed..consumed + n], &mut output[produced..]);
-            consumed += n;
-        }
-        (consumed, produced)
+        self.process_pieces(input, output)
     }
 
     fn max_output_len(&self, input_len: usize) -> usize {
-        pieces_bound(input_len, CHUNK, |n| self.piece_bound(n))
+        self.pieces_output_len(input_len)
     }
 
     fn delay(&self) -> f64 {

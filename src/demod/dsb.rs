@@ -14,8 +14,9 @@
 use super::audio_stage::{validate_audio, AudioStage};
 use super::config::ReceiverConfig;
 use super::front_end::{validate_tuning, ChannelFrontEnd, FrontEndConfig, CHUNK};
+use super::pieces::Pieces;
 use super::receiver::{Measurements, Receiver};
-use crate::block::{pieces_bound, Block};
+use crate::block::Block;
 use crate::dsp::{Agc, AgcSettings};
 use crate::sync::{CarrierAcquisition, CarrierKind, CostasLoop, PllConfig};
 use crate::{Complex32, Result};
@@ -155,7 +156,9 @@ impl DsbReceiver {
     pub fn acquisition(&self) -> &CarrierAcquisition<CostasLoop> {
         &self.carrier
     }
+}
 
+impl Pieces for DsbReceiver {
     fn piece_bound(&self, n: usize) -> usize {
         self.audio.max_output_len(self.front.max_output_len(n))
     }
@@ -176,21 +179,11 @@ impl Block for DsbReceiver {
     type Output = f32;
 
     fn process(&mut self, input: &[Complex32], output: &mut [f32]) -> (usize, usize) {
-        let mut consumed = 0;
-        let mut produced = 0;
-        while consumed < input.len() {
-            let n = CHUNK.min(input.len() - consumed);
-            if self.piece_bound(n) > output.len() - produced {
-                break;
-            }
-            produced += self.process_piece(&input[consumed..consumed + n], &mut output[produced..]);
-            consumed += n;
-        }
-        (consumed, produced)
+        self.process_pieces(input, output)
     }
 
     fn max_output_len(&self, input_len: usize) -> usize {
-        pieces_bound(input_len, CHUNK, |n| self.piece_bound(n))
+        self.pieces_output_len(input_len)
     }
 
     fn delay(&self) -> f64 {

@@ -7,9 +7,10 @@
 use super::audio_stage::{validate_audio, AudioStage};
 use super::config::{Sideband, SsbMethod};
 use super::front_end::{validate_tuning, ChannelFrontEnd, FrontEndConfig, CHUNK};
+use super::pieces::Pieces;
 use super::receiver::{Measurements, Receiver};
 use super::ssb::{ssb_detector, SsbDetector};
-use crate::block::{pieces_bound, Block};
+use crate::block::Block;
 use crate::dsp::{Agc, AgcSettings};
 use crate::{Complex32, Result};
 
@@ -141,7 +142,9 @@ impl IsbReceiver {
     pub fn config(&self) -> &IsbConfig {
         &self.config
     }
+}
 
+impl Pieces for IsbReceiver {
     /// Interleaved outputs of one piece of `n ≤ CHUNK` inputs, at most.
     fn piece_bound(&self, n: usize) -> usize {
         2 * self
@@ -170,22 +173,12 @@ impl Block for IsbReceiver {
     type Output = f32;
 
     fn process(&mut self, input: &[Complex32], output: &mut [f32]) -> (usize, usize) {
-        let mut consumed = 0;
-        let mut produced = 0;
-        while consumed < input.len() {
-            let n = CHUNK.min(input.len() - consumed);
-            if self.piece_bound(n) > output.len() - produced {
-                break;
-            }
-            produced += self.process_piece(&input[consumed..consumed + n], &mut output[produced..]);
-            consumed += n;
-        }
-        (consumed, produced)
+        self.process_pieces(input, output)
     }
 
     /// Counts interleaved samples (two per frame).
     fn max_output_len(&self, input_len: usize) -> usize {
-        pieces_bound(input_len, CHUNK, |n| self.piece_bound(n))
+        self.pieces_output_len(input_len)
     }
 
     fn delay(&self) -> f64 {

@@ -13,6 +13,7 @@ pub mod envelope;
 pub mod front_end;
 pub mod isb;
 pub mod mode;
+pub(crate) mod pieces;
 pub mod receiver;
 pub mod sam;
 pub mod ssb;

@@ -17,8 +17,9 @@
 use super::audio_stage::{validate_audio, AudioStage};
 use super::config::{ReceiverConfig, Sideband};
 use super::front_end::{validate_tuning, ChannelFrontEnd, FrontEndConfig, CHUNK};
+use super::pieces::Pieces;
 use super::receiver::{Measurements, Receiver};
-use crate::block::{pieces_bound, Block};
+use crate::block::Block;
 use crate::dsp::{design_lowpass, Agc, AgcSettings, Fir, LowpassSpec, Mixer};
 use crate::measure::ModulationMeter;
 use crate::sync::{CarrierAcquisition, CarrierKind, CarrierPll, PllConfig};
@@ -196,7 +197,30 @@ impl SamReceiver {
     pub fn acquisition(&self) -> &CarrierAcquisition<CarrierPll> {
         &self.carrier
     }
+}
 
+/// The Weaver selector keeping `side` of a message of bandwidth `w` at `rate`.
+fn sideband_selector(side: Sideband, w: f64, rate: f64) -> Result<SidebandSelector> {
+    let half = 0.5 * w;
+    let shift = match side {
+        Sideband::Upper => -half,
+        Sideband::Lower => half,
+    };
+    let transition = (SIDEBAND_TRANSITION * w).clamp(100.0, 500.0);
+    let taps = design_lowpass(&LowpassSpec {
+        passband_hz: half,
+        stopband_hz: (half + transition).min(0.5 * rate),
+        attenuation_db: SIDEBAND_ATTENUATION_DB,
+        sample_rate: rate,
+    })?;
+    Ok(SidebandSelector {
+        down: Mixer::new(shift, rate)?,
+        lowpass: Fir::new(&taps)?,
+        up: Mixer::new(-shift, rate)?,
+    })
+}
+
+impl Pieces for SamReceiver {
     fn piece_bound(&self, n: usize) -> usize {
         self.audio.max_output_len(self.front.max_output_len(n))
     }
@@ -227,47 +251,16 @@ impl SamReceiver {
     }
 }
 
-/// The Weaver selector keeping `side` of a message of bandwidth `w` at `rate`.
-fn sideband_selector(side: Sideband, w: f64, rate: f64) -> Result<SidebandSelector> {
-    let half = 0.5 * w;
-    let shift = match side {
-        Sideband::Upper => -half,
-        Sideband::Lower => half,
-    };
-    let transition = (SIDEBAND_TRANSITION * w).clamp(100.0, 500.0);
-    let taps = design_lowpass(&LowpassSpec {
-        passband_hz: half,
-        stopband_hz: (half + transition).min(0.5 * rate),
-        attenuation_db: SIDEBAND_ATTENUATION_DB,
-        sample_rate: rate,
-    })?;
-    Ok(SidebandSelector {
-        down: Mixer::new(shift, rate)?,
-        lowpass: Fir::new(&taps)?,
-        up: Mixer::new(-shift, rate)?,
-    })
-}
-
 impl Block for SamReceiver {
     type Input = Complex32;
     type Output = f32;
 
     fn process(&mut self, input: &[Complex32], output: &mut [f32]) -> (usize, usize) {
-        let mut consumed = 0;
-        let mut produced = 0;
-        while consumed < input.len() {
-            let n = CHUNK.min(input.len() - consumed);
-            if self.piece_bound(n) > output.len() - produced {
-                break;
-            }
-            produced += self.process_piece(&input[consumed..consumed + n], &mut output[produced..]);
-            consumed += n;
-        }
-        (consumed, produced)
+        self.process_pieces(input, output)
     }
 
     fn max_output_len(&self, input_len: usize) -> usize {
-        pieces_bound(input_len, CHUNK, |n| self.piece_bound(n))
+        self.pieces_output_len(input_len)
     }
 
     fn delay(&self) -> f64 {

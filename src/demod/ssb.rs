@@ -14,9 +14,10 @@
 use super::audio_stage::{validate_audio, AudioStage};
 use super::config::{LoopSettings, Sideband, SsbMethod};
 use super::front_end::{validate_tuning, ChannelFrontEnd, FrontEndConfig, CHUNK};
+use super::pieces::Pieces;
 use super::receiver::{Measurements, Receiver};
 use super::{PhasingDetector, WeaverDetector};
-use crate::block::{pieces_bound, Block};
+use crate::block::Block;
 use crate::dsp::{Agc, AgcSettings};
 use crate::measure::find_carrier;
 use crate::sync::{CarrierPll, PllConfig};
@@ -404,23 +405,6 @@ impl SsbReceiver {
         &self.config
     }
 
-    fn piece_bound(&self, n: usize) -> usize {
-        self.audio.max_output_len(self.front.max_output_len(n))
-    }
-
-    fn process_piece(&mut self, input: &[Complex32], output: &mut [f32]) -> usize {
-        let (_, n) = self.front.process(input, &mut self.channel);
-        if let Some(lock) = self.lock.as_mut() {
-            lock.process_in_place(&mut self.channel[..n]);
-        }
-        self.detector
-            .process(&self.channel[..n], &mut self.detected[..n]);
-        for x in self.detected[..n].iter_mut() {
-            *x = self.agc.next_sample(*x);
-        }
-        self.audio.process(&self.detected[..n], output).1
-    }
-
     fn lock_measurements(&self, lock: &CarrierLock, m: &mut Measurements) {
         m.locked = Some(lock.is_locked());
         let Some(frequency) = lock.frequency_hz() else {
@@ -441,26 +425,35 @@ impl SsbReceiver {
     }
 }
 
+impl Pieces for SsbReceiver {
+    fn piece_bound(&self, n: usize) -> usize {
+        self.audio.max_output_len(self.front.max_output_len(n))
+    }
+
+    fn process_piece(&mut self, input: &[Complex32], output: &mut [f32]) -> usize {
+        let (_, n) = self.front.process(input, &mut self.channel);
+        if let Some(lock) = self.lock.as_mut() {
+            lock.process_in_place(&mut self.channel[..n]);
+        }
+        self.detector
+            .process(&self.channel[..n], &mut self.detected[..n]);
+        for x in self.detected[..n].iter_mut() {
+            *x = self.agc.next_sample(*x);
+        }
+        self.audio.process(&self.detected[..n], output).1
+    }
+}
+
 impl Block for SsbReceiver {
     type Input = Complex32;
     type Output = f32;
 
     fn process(&mut self, input: &[Complex32], output: &mut [f32]) -> (usize, usize) {
-        let mut consumed = 0;
-        let mut produced = 0;
-        while consumed < input.len() {
-            let n = CHUNK.min(input.len() - consumed);
-            if self.piece_bound(n) > output.len() - produced {
-                break;
-            }
-            produced += self.process_piece(&input[consumed..consumed + n], &mut output[produced..]);
-            consumed += n;
-        }
-        (consumed, produced)
+        self.process_pieces(input, output)
     }
 
     fn max_output_len(&self, input_len: usize) -> usize {
-        pieces_bound(input_len, CHUNK, |n| self.piece_bound(n))
+        self.pieces_output_len(input_len)
     }
 
     fn delay(&self) -> f64 {

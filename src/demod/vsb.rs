@@ -16,10 +16,11 @@
 use super::audio_stage::{validate_audio, AudioStage};
 use super::config::{LoopSettings, Sideband};
 use super::front_end::{validate_tuning, ChannelFrontEnd, FrontEndConfig, CHUNK};
+use super::pieces::Pieces;
 use super::receiver::{Measurements, Receiver};
 use super::ssb::{CarrierLock, DEFAULT_LOCK_BANDWIDTH_HZ};
 use super::PhasingDetector;
-use crate::block::{pieces_bound, Block};
+use crate::block::Block;
 use crate::dsp::hilbert::windowed_antisymmetric;
 use crate::dsp::{kaiser_beta, kaiser_num_taps, Agc, AgcSettings};
 use crate::measure::find_carrier;
@@ -177,7 +178,9 @@ impl VsbReceiver {
     pub fn config(&self) -> &VsbConfig {
         &self.config
     }
+}
 
+impl Pieces for VsbReceiver {
     fn piece_bound(&self, n: usize) -> usize {
         self.audio.max_output_len(self.front.max_output_len(n))
     }
@@ -199,21 +202,11 @@ impl Block for VsbReceiver {
     type Output = f32;
 
     fn process(&mut self, input: &[Complex32], output: &mut [f32]) -> (usize, usize) {
-        let mut consumed = 0;
-        let mut produced = 0;
-        while consumed < input.len() {
-            let n = CHUNK.min(input.len() - consumed);
-            if self.piece_bound(n) > output.len() - produced {
-                break;
-            }
-            produced += self.process_piece(&input[consumed..consumed + n], &mut output[produced..]);
-            consumed += n;
-        }
-        (consumed, produced)
+        self.process_pieces(input, output)
     }
 
     fn max_output_len(&self, input_len: usize) -> usize {
-        pieces_bound(input_len, CHUNK, |n| self.piece_bound(n))
+        self.pieces_output_len(input_len)
     }
 
     fn delay(&self) -> f64 {

@@ -1,9 +1,10 @@
 //! A full-carrier AM receiver whose detector is the physical diode-and-RC model: the shared
 //! front end, the [`DiodeDetector`], and the shared audio stage.
 
-use crate::block::{pieces_bound, Block};
+use crate::block::Block;
 use crate::demod::audio_stage::validate_audio;
 use crate::demod::front_end::CHUNK;
+use crate::demod::pieces::Pieces;
 use crate::demod::{
     AudioStage, ChannelFrontEnd, DiodeConfig, DiodeDetector, FrontEndConfig, Measurements, Receiver,
 };
@@ -64,7 +65,9 @@ impl DiodeReceiver {
     pub fn diode(&self) -> &DiodeConfig {
         self.diode.config()
     }
+}
 
+impl Pieces for DiodeReceiver {
     fn piece_bound(&self, n: usize) -> usize {
         let channel = self.front.max_output_len(n);
         self.audio
@@ -83,21 +86,11 @@ impl Block for DiodeReceiver {
     type Output = f32;
 
     fn process(&mut self, input: &[Complex32], output: &mut [f32]) -> (usize, usize) {
-        let mut consumed = 0;
-        let mut produced = 0;
-        while consumed < input.len() {
-            let n = CHUNK.min(input.len() - consumed);
-            if self.piece_bound(n) > output.len() - produced {
-                break;
-            }
-            produced += self.process_piece(&input[consumed..consumed + n], &mut output[produced..]);
-            consumed += n;
-        }
-        (consumed, produced)
+        self.process_pieces(input, output)
     }
 
     fn max_output_len(&self, input_len: usize) -> usize {
-        pieces_bound(input_len, CHUNK, |n| self.piece_bound(n))
+        self.pieces_output_len(input_len)
     }
 
     fn delay(&self) -> f64 {
