@@ -130,6 +130,9 @@ pub struct EmissionSpec {
 /// Longest fading delay accepted, ms (HF differential delays are a few ms; the generous
 /// bound only keeps the delay line small: common practice, no source).
 const MAX_FADING_DELAY_MS: f64 = 100.0;
+/// Longest fading delay in samples (bounds the delay line's memory at high rates, 64 MiB;
+/// common practice, no source).
+const MAX_FADING_DELAY_SAMPLES: f64 = 4_194_304.0;
 /// Most fading paths accepted (common practice, no source).
 const MAX_FADING_PATHS: u32 = 8;
 /// Largest Doppler spread as a fraction of the sample rate: the tap gain needs a rate of at
@@ -258,6 +261,13 @@ impl FadingSpec {
         };
         let limit = MAX_SPREAD_PER_RATE * sample_rate;
         for path in &paths {
+            if path.delay_s * sample_rate > MAX_FADING_DELAY_SAMPLES {
+                return Err(format!(
+                    "fading: a delay of {} s is {} samples at {sample_rate} Hz, more than 2^22",
+                    path.delay_s,
+                    (path.delay_s * sample_rate).round()
+                ));
+            }
             if !(path.spread_hz.is_finite() && (0.0..=limit).contains(&path.spread_hz)) {
                 return Err(format!(
                     "fading.doppler_spread_hz: {} must lie in 0 ..= fs/16 = {limit} Hz",
@@ -867,6 +877,35 @@ mod tests {
         }
         eprintln!("interpolated AM worst error {worst:.2e}");
         assert!(worst < 1e-3, "{worst}");
+    }
+
+    #[test]
+    fn fading_resolves_to_paths_and_describes_itself() {
+        let c: ChannelSpec = serde_json::from_str(
+            r#"{"drift_hz_per_s":2,"fading":{"delay_ms":1.5,"doppler_spread_hz":2,"paths":3}}"#,
+        )
+        .unwrap();
+        let (paths, _) = c.fading.as_ref().unwrap().resolve(48e3).unwrap();
+        let delays: Vec<f64> = paths.iter().map(|p| p.delay_s).collect();
+        assert_eq!(delays, vec![0.0, 0.75e-3, 1.5e-3]);
+        assert!(paths
+            .iter()
+            .all(|p| p.power == 1.0 / 3.0 && p.spread_hz == 2.0));
+        assert_eq!(
+            c.describe(48e3),
+            "drift 2 Hz/s, fading 3 paths over 1.5 ms, 2 Hz"
+        );
+        assert_eq!(c.offset_range_hz(4.0), (0.0, 8.0));
+        let named = FadingSpec::Condition("moderate".into());
+        let (paths, text) = named.resolve(48e3).unwrap();
+        assert_eq!(paths, HfCondition::Moderate.paths().to_vec());
+        assert_eq!(text, "moderate (1 ms, 0.5 Hz)");
+        // 7 ms at 1 GHz is 7·10⁶ samples: refused before the delay line is allocated.
+        let nvis = FadingSpec::Condition("mid-latitude-disturbed-nvis".into());
+        assert!(nvis.resolve(1e9).unwrap_err().contains("2^22"));
+        let flat: FadingSpec =
+            serde_json::from_str(r#"{"delay_ms":0,"doppler_spread_hz":1,"paths":1}"#).unwrap();
+        assert_eq!(flat.resolve(8e3).unwrap().0.len(), 1);
     }
 
     #[test]

@@ -50,7 +50,7 @@
 //! same file. The drifting carrier must keep the emission inside ±fs/2 while it is active.
 //!
 //! # Impulse noise
-//! `impulse_noise` adds Poisson bursts ([`ImpulseNoise`](crate::channel::ImpulseNoise)):
+//! `impulse_noise` adds Poisson bursts ([`ImpulseNoise`]):
 //! `rate_hz` bursts per second (≥ 0, below the sample rate), each `duration_s` long (> 0,
 //! rounded to at least one sample, at most the scene's duration), of complex Gaussian noise of
 //! power `power_db` in dB re full scale² (E|w|² during a burst; absolute, so it works in a
