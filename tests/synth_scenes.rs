@@ -37,6 +37,7 @@ fn example_scenes_write_and_read_back() {
     for (name, format, samples, emissions) in [
         ("hf_mix.json", SampleFormat::Ci16Le, 240_000u64, 6),
         ("mw_cheap_receiver.json", SampleFormat::Cu8, 480_000, 4),
+        ("hf_fading.json", SampleFormat::Ci16Le, 384_000, 3),
     ] {
         let base = out_dir().join(name.trim_end_matches(".json"));
         let summary = run_scene(&scene(name), &base, None).unwrap();

@@ -3,7 +3,9 @@
 //! Samples are produced and written in pieces of [`PIECE`] samples, so memory stays bounded
 //! whatever the duration. Each emission becomes a SigMF annotation (`core:sample_start`,
 //! `core:sample_count`, absolute `core:freq_lower_edge`/`core:freq_upper_edge`, `core:label`,
-//! `core:comment` with mode, level and message).
+//! `core:comment` with mode, carrier, message and the emission's channel). With a channel's
+//! frequency error and drift, the carrier is given at the emission's start and the edges span
+//! the whole drift.
 
 use crate::io::{SampleFormat, SigmfAnnotation, SigmfWriter};
 use crate::synth::scene::{scene_dir, Scene, SceneGenerator};
@@ -19,9 +21,9 @@ pub const PIECE: usize = 1 << 16;
 pub struct EmissionSummary {
     /// Its label.
     pub label: String,
-    /// Carrier frequency, Hz (absolute).
+    /// Carrier frequency at the emission's start, Hz (absolute, with the channel's offset).
     pub carrier_hz: f64,
-    /// Occupied band, absolute Hz.
+    /// Occupied band, absolute Hz (over the whole drift).
     pub lower_edge_hz: f64,
     /// Occupied band, absolute Hz.
     pub upper_edge_hz: f64,
@@ -33,6 +35,9 @@ pub struct EmissionSummary {
     pub cnr_db: Option<f64>,
     /// Channel SNR in dB against the scene noise (None without noise).
     pub snr_db: Option<f64>,
+    /// The emission's channel in words (empty without one), e.g.
+    /// `drift 2 Hz/s, fading moderate (1 ms, 0.5 Hz)`.
+    pub channel: String,
 }
 
 /// What [`run_scene`] wrote.
@@ -145,20 +150,31 @@ fn summarise(scene: &Scene, generator: &SceneGenerator) -> Vec<EmissionSummary> 
         .iter()
         .zip(&scene.emissions)
         .map(|(e, spec)| {
-            let carrier = scene.centre_frequency + spec.offset_hz;
             let (lo, hi) = e.edges_hz();
+            let active_s = (e.active().1 - e.active().0) as f64 / scene.sample_rate;
+            let (drift_low, drift_high, start_offset) =
+                spec.channel.as_ref().map_or((0.0, 0.0, 0.0), |c| {
+                    let (a, b) = c.offset_range_hz(active_s);
+                    (a, b, c.offset_hz)
+                });
+            let nominal = scene.centre_frequency + spec.offset_hz;
             let w = e.message_bandwidth();
             let with_noise = |v: f64| (n0 > 0.0 && v > 0.0).then_some(v);
             EmissionSummary {
                 label: e.label().to_string(),
-                carrier_hz: carrier,
-                lower_edge_hz: carrier + lo,
-                upper_edge_hz: carrier + hi,
+                carrier_hz: nominal + start_offset,
+                lower_edge_hz: nominal + drift_low + lo,
+                upper_edge_hz: nominal + drift_high + hi,
                 samples: e.active(),
                 mean_power: e.mean_power(),
                 cnr_db: with_noise(e.carrier_power())
                     .map(|c| crate::channel::snr::cnr_db(c, n0, w)),
                 snr_db: with_noise(e.mean_power()).map(|s| crate::channel::snr::snr_db(s, n0, w)),
+                channel: spec
+                    .channel
+                    .as_ref()
+                    .map(|c| c.describe(scene.sample_rate))
+                    .unwrap_or_default(),
             }
         })
         .collect()
@@ -173,9 +189,16 @@ fn annotation(spec: &EmissionSpec, s: &EmissionSummary) -> SigmfAnnotation {
         freq_lower_edge: Some(s.lower_edge_hz),
         freq_upper_edge: Some(s.upper_edge_hz),
         label: Some(s.label.clone()),
-        comment: Some(format!(
-            "amrx synth: {mode}, carrier {} Hz, message {message}",
-            s.carrier_hz
-        )),
+        comment: Some(if s.channel.is_empty() {
+            format!(
+                "amrx synth: {mode}, carrier {} Hz, message {message}",
+                s.carrier_hz
+            )
+        } else {
+            format!(
+                "amrx synth: {mode}, carrier {} Hz, message {message}, channel: {}",
+                s.carrier_hz, s.channel
+            )
+        }),
     }
 }

@@ -13,6 +13,7 @@ use super::{
     VsbModulator, WavMessage,
 };
 use crate::block::Block;
+use crate::channel::{FrequencyOffset, HfCondition, PathSpec, PhaseNoise, WattersonChannel};
 use crate::dsp::{design_lowpass, LowpassSpec, Mixer, RationalResampler};
 use crate::{Complex32, Error, Result};
 use serde::{Deserialize, Serialize};
@@ -121,6 +122,274 @@ pub struct EmissionSpec {
     /// Stop time, s (default: the end of the recording).
     #[serde(default)]
     pub stop_s: Option<f64>,
+    /// The emission's own channel (oscillator errors and fading), absent: none.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub channel: Option<ChannelSpec>,
+}
+
+/// Longest fading delay accepted, ms (HF differential delays are a few ms; the generous
+/// bound only keeps the delay line small: common practice, no source).
+const MAX_FADING_DELAY_MS: f64 = 100.0;
+/// Longest fading delay in samples (bounds the delay line's memory at high rates, 64 MiB;
+/// common practice, no source).
+const MAX_FADING_DELAY_SAMPLES: f64 = 4_194_304.0;
+/// Most fading paths accepted (common practice, no source).
+const MAX_FADING_PATHS: u32 = 8;
+/// Largest Doppler spread as a fraction of the sample rate: the tap gain needs a rate of at
+/// least 8σ = 4 × the spread (see [`crate::channel::TapGain`]); fs/16 leaves a margin of 4.
+const MAX_SPREAD_PER_RATE: f64 = 1.0 / 16.0;
+
+/// An emission's channel, as written in a scene file: the transmitter oscillator's frequency
+/// error, drift and phase noise, then multipath fading, applied to that emission alone before
+/// it is summed into the scene (each emission has its own path to the receiver).
+#[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ChannelSpec {
+    /// Carrier frequency error added to `offset_hz`, Hz.
+    #[serde(default)]
+    pub offset_hz: f64,
+    /// Linear carrier drift from the emission's start, Hz/s.
+    #[serde(default)]
+    pub drift_hz_per_s: f64,
+    /// Wiener phase noise of this −3 dB (Lorentzian) linewidth, Hz; 0 ≤ Δν < sample rate.
+    #[serde(default)]
+    pub phase_noise_linewidth_hz: f64,
+    /// Watterson fading: a condition name or explicit paths.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub fading: Option<FadingSpec>,
+    /// Seed of the phase noise and fading (default: from the scene seed and the emission's
+    /// index).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub seed: Option<u64>,
+}
+
+/// Fading as written: `"moderate"` (any [`HfCondition::parse`] name) or
+/// `{"delay_ms": .., "doppler_spread_hz": .., "paths": ..}`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(untagged, try_from = "serde_json::Value")]
+pub enum FadingSpec {
+    /// A standard condition by name (checked when the scene is checked).
+    Condition(String),
+    /// Equal-power paths spread evenly over a delay.
+    Paths(FadingPaths),
+}
+
+/// Explicit fading: `paths` equal-power Rayleigh paths (power 1/paths each, so the mean power
+/// gain is 1), path k delayed by k·delay/(paths − 1), each of Gaussian Doppler spread
+/// `doppler_spread_hz` (2σ). One path is flat fading.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FadingPaths {
+    /// Delay between the first and the last path, ms (0 ..= 100).
+    pub delay_ms: f64,
+    /// Doppler spread 2σ of every path, Hz (0: fixed paths; at most fs/16).
+    pub doppler_spread_hz: f64,
+    /// Number of paths (1 ..= 8, default 2).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub paths: Option<u32>,
+}
+
+impl TryFrom<serde_json::Value> for FadingSpec {
+    type Error = String;
+
+    fn try_from(v: serde_json::Value) -> std::result::Result<Self, String> {
+        match v {
+            serde_json::Value::String(name) => Ok(FadingSpec::Condition(name)),
+            v @ serde_json::Value::Object(_) => serde_json::from_value(v)
+                .map(FadingSpec::Paths)
+                .map_err(|e| format!("channel.fading: {e}")),
+            other => Err(format!(
+                "channel.fading: {other} is neither a condition name nor \
+                 {{\"delay_ms\", \"doppler_spread_hz\", \"paths\"}}"
+            )),
+        }
+    }
+}
+
+impl FadingSpec {
+    /// The paths and a short description, e.g. `moderate (1 ms, 0.5 Hz)`; an error (naming
+    /// the field below `fading`) for an unknown condition or values out of range.
+    pub fn resolve(
+        &self,
+        sample_rate: f64,
+    ) -> std::result::Result<(Vec<PathSpec>, String), String> {
+        let (paths, text) = match self {
+            FadingSpec::Condition(name) => {
+                let c = HfCondition::parse(name).ok_or_else(|| {
+                    let names: Vec<&str> = HfCondition::ALL.iter().map(|c| c.name()).collect();
+                    format!("fading: unknown condition '{name}' ({})", names.join(", "))
+                })?;
+                let (delay, spread) = c.delay_and_spread();
+                let text = format!("{name} ({} ms, {spread} Hz)", delay * 1e3);
+                (c.paths().to_vec(), text)
+            }
+            FadingSpec::Paths(p) => {
+                let count = p.paths.unwrap_or(2);
+                if !(p.delay_ms.is_finite() && (0.0..=MAX_FADING_DELAY_MS).contains(&p.delay_ms)) {
+                    return Err(format!(
+                        "fading.delay_ms: {} must lie in 0 ..= {MAX_FADING_DELAY_MS} ms",
+                        p.delay_ms
+                    ));
+                }
+                if !(1..=MAX_FADING_PATHS).contains(&count) {
+                    return Err(format!(
+                        "fading.paths: {count} must lie in 1 ..= {MAX_FADING_PATHS}"
+                    ));
+                }
+                let paths = (0..count)
+                    .map(|k| PathSpec {
+                        delay_s: if count > 1 {
+                            1e-3 * p.delay_ms * f64::from(k) / f64::from(count - 1)
+                        } else {
+                            0.0
+                        },
+                        power: 1.0 / f64::from(count),
+                        spread_hz: p.doppler_spread_hz,
+                        shift_hz: 0.0,
+                    })
+                    .collect();
+                let text = if count == 1 {
+                    format!("1 path (flat), {} Hz", p.doppler_spread_hz)
+                } else {
+                    format!(
+                        "{count} paths over {} ms, {} Hz",
+                        p.delay_ms, p.doppler_spread_hz
+                    )
+                };
+                (paths, text)
+            }
+        };
+        let limit = MAX_SPREAD_PER_RATE * sample_rate;
+        for path in &paths {
+            if path.delay_s * sample_rate > MAX_FADING_DELAY_SAMPLES {
+                return Err(format!(
+                    "fading: a delay of {} s is {} samples at {sample_rate} Hz, more than 2^22",
+                    path.delay_s,
+                    (path.delay_s * sample_rate).round()
+                ));
+            }
+            if !(path.spread_hz.is_finite() && (0.0..=limit).contains(&path.spread_hz)) {
+                return Err(format!(
+                    "fading.doppler_spread_hz: {} must lie in 0 ..= fs/16 = {limit} Hz",
+                    path.spread_hz
+                ));
+            }
+        }
+        Ok((paths, text))
+    }
+}
+
+impl ChannelSpec {
+    /// Checks every value at `sample_rate`; the error names the field below `channel`.
+    pub fn check(&self, sample_rate: f64) -> std::result::Result<(), String> {
+        for (name, v) in [
+            ("offset_hz", self.offset_hz),
+            ("drift_hz_per_s", self.drift_hz_per_s),
+        ] {
+            if !v.is_finite() {
+                return Err(format!("{name}: {v} must be finite"));
+            }
+        }
+        let lw = self.phase_noise_linewidth_hz;
+        if !(lw.is_finite() && lw >= 0.0 && lw < sample_rate) {
+            return Err(format!(
+                "phase_noise_linewidth_hz: {lw} must be finite, ≥ 0 and below the sample rate {sample_rate} Hz"
+            ));
+        }
+        if let Some(f) = &self.fading {
+            f.resolve(sample_rate)?;
+        }
+        Ok(())
+    }
+
+    /// The carrier's extra offset over an active time of `active_s` seconds:
+    /// (lowest, highest) of offset + drift·t, t ∈ [0, active_s].
+    pub fn offset_range_hz(&self, active_s: f64) -> (f64, f64) {
+        let end = self.offset_hz + self.drift_hz_per_s * active_s;
+        (self.offset_hz.min(end), self.offset_hz.max(end))
+    }
+
+    /// A short description for annotations, e.g.
+    /// `offset 3 Hz, drift 2 Hz/s, phase noise 1 Hz, fading moderate (1 ms, 0.5 Hz)`
+    /// (empty for a channel with no effect).
+    pub fn describe(&self, sample_rate: f64) -> String {
+        let mut parts = Vec::new();
+        if self.offset_hz != 0.0 {
+            parts.push(format!("offset {} Hz", self.offset_hz));
+        }
+        if self.drift_hz_per_s != 0.0 {
+            parts.push(format!("drift {} Hz/s", self.drift_hz_per_s));
+        }
+        if self.phase_noise_linewidth_hz > 0.0 {
+            parts.push(format!("phase noise {} Hz", self.phase_noise_linewidth_hz));
+        }
+        if let Some(Ok((_, text))) = self.fading.as_ref().map(|f| f.resolve(sample_rate)) {
+            parts.push(format!("fading {text}"));
+        }
+        parts.join(", ")
+    }
+}
+
+/// SplitMix64's output function (S. Vigna, "Further scramblings of Marsaglia's xorshift
+/// generators", 2017; the finaliser of `splitmix64.c`): decorrelates derived seeds.
+fn mix_seed(x: u64) -> u64 {
+    let mut z = x.wrapping_add(0x9e37_79b9_7f4a_7c15);
+    z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
+    z ^ (z >> 31)
+}
+
+/// The blocks of an emission's channel, in the order a signal meets them: the transmitter's
+/// frequency error and drift, its phase noise, then the multipath fading.
+struct ChannelChain {
+    offset: Option<FrequencyOffset>,
+    phase_noise: Option<PhaseNoise>,
+    fading: Option<WattersonChannel>,
+}
+
+impl ChannelChain {
+    fn new(spec: &ChannelSpec, fs: f64, emission_seed: u64) -> Result<Self> {
+        spec.check(fs)
+            .map_err(|e| Error::parameter("channel", "", e))?;
+        let seed = spec
+            .seed
+            .unwrap_or_else(|| mix_seed(emission_seed ^ 0x6368_616e_6e65_6c00));
+        let offset = (spec.offset_hz != 0.0 || spec.drift_hz_per_s != 0.0)
+            .then(|| FrequencyOffset::new(spec.offset_hz, spec.drift_hz_per_s, fs))
+            .transpose()?;
+        let phase_noise = (spec.phase_noise_linewidth_hz > 0.0)
+            .then(|| PhaseNoise::new(spec.phase_noise_linewidth_hz, fs, mix_seed(seed ^ 1)))
+            .transpose()?;
+        let fading = match &spec.fading {
+            Some(f) => {
+                let (paths, _) = f
+                    .resolve(fs)
+                    .map_err(|e| Error::parameter("channel", "", e))?;
+                Some(WattersonChannel::new(&paths, fs, mix_seed(seed ^ 2))?)
+            }
+            None => None,
+        };
+        Ok(ChannelChain {
+            offset,
+            phase_noise,
+            fading,
+        })
+    }
+
+    /// Passes `signal` through every block, using `scratch` (at least as long) in between.
+    fn apply(&mut self, signal: &mut [Complex32], scratch: &mut [Complex32]) {
+        let n = signal.len();
+        let scratch = &mut scratch[..n];
+        let blocks: [Option<&mut dyn Block<Input = Complex32, Output = Complex32>>; 3] = [
+            self.offset.as_mut().map(|b| b as _),
+            self.phase_noise.as_mut().map(|b| b as _),
+            self.fading.as_mut().map(|b| b as _),
+        ];
+        for block in blocks.into_iter().flatten() {
+            block.process(signal, scratch);
+            signal.copy_from_slice(scratch);
+        }
+    }
 }
 
 enum Modulator {
@@ -142,6 +411,7 @@ pub struct Emission {
     modulator: Modulator,
     interpolator: Option<RationalResampler<Complex32>>,
     mixer: Mixer,
+    channel: Option<ChannelChain>,
     piece: usize,
     message_buf: Vec<f64>,
     lower_buf: Vec<f64>,
@@ -394,6 +664,11 @@ impl Emission {
             modulator,
             interpolator,
             mixer: Mixer::new(offset, fs)?,
+            channel: spec
+                .channel
+                .as_ref()
+                .map(|c| ChannelChain::new(c, fs, seed))
+                .transpose()?,
             piece,
             message_buf: vec![0.0; piece],
             lower_buf: vec![0.0; piece],
@@ -502,6 +777,9 @@ impl Emission {
             &self.interpolated[..produced],
             &mut self.pending[..produced],
         );
+        if let Some(channel) = &mut self.channel {
+            channel.apply(&mut self.pending[..produced], &mut self.interpolated);
+        }
         self.at = 0;
         self.ready = produced;
     }
@@ -599,6 +877,35 @@ mod tests {
         }
         eprintln!("interpolated AM worst error {worst:.2e}");
         assert!(worst < 1e-3, "{worst}");
+    }
+
+    #[test]
+    fn fading_resolves_to_paths_and_describes_itself() {
+        let c: ChannelSpec = serde_json::from_str(
+            r#"{"drift_hz_per_s":2,"fading":{"delay_ms":1.5,"doppler_spread_hz":2,"paths":3}}"#,
+        )
+        .unwrap();
+        let (paths, _) = c.fading.as_ref().unwrap().resolve(48e3).unwrap();
+        let delays: Vec<f64> = paths.iter().map(|p| p.delay_s).collect();
+        assert_eq!(delays, vec![0.0, 0.75e-3, 1.5e-3]);
+        assert!(paths
+            .iter()
+            .all(|p| p.power == 1.0 / 3.0 && p.spread_hz == 2.0));
+        assert_eq!(
+            c.describe(48e3),
+            "drift 2 Hz/s, fading 3 paths over 1.5 ms, 2 Hz"
+        );
+        assert_eq!(c.offset_range_hz(4.0), (0.0, 8.0));
+        let named = FadingSpec::Condition("moderate".into());
+        let (paths, text) = named.resolve(48e3).unwrap();
+        assert_eq!(paths, HfCondition::Moderate.paths().to_vec());
+        assert_eq!(text, "moderate (1 ms, 0.5 Hz)");
+        // 7 ms at 1 GHz is 7·10⁶ samples: refused before the delay line is allocated.
+        let nvis = FadingSpec::Condition("mid-latitude-disturbed-nvis".into());
+        assert!(nvis.resolve(1e9).unwrap_err().contains("2^22"));
+        let flat: FadingSpec =
+            serde_json::from_str(r#"{"delay_ms":0,"doppler_spread_hz":1,"paths":1}"#).unwrap();
+        assert_eq!(flat.resolve(8e3).unwrap().0.len(), 1);
     }
 
     #[test]

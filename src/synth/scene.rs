@@ -1,5 +1,5 @@
-//! Scenes: a JSON description of a recording (emissions, noise, front-end impairments) and
-//! the generator that produces it in pieces.
+//! Scenes: a JSON description of a recording (emissions, their channels, noise, front-end
+//! impairments) and the generator that produces it in pieces.
 //!
 //! # Schema
 //! ```json
@@ -14,25 +14,61 @@
 //!            { "snr_db": 20, "reference": "LABEL" }   // channel SNR of that emission, or
 //!            { "density_db_hz": -90 },                // N0 in dB re full scale²/Hz
 //!                                                      // (absent: no noise)
+//!   "impulse_noise": { "rate_hz": 20, "duration_s": 0.002, "power_db": -20, "seed": 5 },
 //!   "impairments": { "dc_i": 0.01, "dc_q": -0.01, "gain_db": 0.3, "phase_deg": 1.0 },
 //!   "emissions": [ EmissionSpec, ... ]               // see EmissionSpec
 //! }
 //! ```
 //! (comments are not allowed in the file; they explain the fields here.) CNR and channel SNR
-//! follow the definitions of [`crate::channel::snr`] with W the reference's message bandwidth.
+//! follow the definitions of [`crate::channel::snr`] with W the reference's message bandwidth
+//! and the reference's unfaded (mean) power.
 //! Emission fields: `label`, `mode` (am|dsb|usb|lsb|isb|vsb), `offset_hz`, `level_db` or
 //! `amplitude`, `mu` (am, vsb), `carrier_db` (usb, lsb, isb), `vestige_hz` (vsb), `message`
 //! (`{"type":"tone","frequency_hz":..}`, `{"type":"two_tone","f1_hz":..,"f2_hz":..}`,
 //! `{"type":"noise","bandwidth_hz":..,"low_hz":..,"crest_factor":..}`,
 //! `{"type":"wav","path":..,"bandwidth_hz":..,"low_hz":..}`), `lower_message` (isb),
-//! `start_s`, `stop_s`.
+//! `start_s`, `stop_s`, `channel`.
+//!
+//! # Channel of an emission
+//! ```json
+//! "channel": { "offset_hz": 3.5, "drift_hz_per_s": 2.0, "phase_noise_linewidth_hz": 1.0,
+//!              "fading": "moderate", "seed": 9 }
+//! ```
+//! Every key is optional ([`ChannelSpec`](super::emission::ChannelSpec)). The emission's
+//! signal passes, in this order, a carrier frequency error `offset_hz` (added to the
+//! emission's `offset_hz`) drifting linearly by `drift_hz_per_s` from the emission's start
+//! ([`FrequencyOffset`](crate::channel::FrequencyOffset)), Wiener phase noise of −3 dB
+//! linewidth `phase_noise_linewidth_hz` (0 ≤ Δν < sample rate;
+//! [`PhaseNoise`](crate::channel::PhaseNoise)), and Watterson fading
+//! ([`WattersonChannel`](crate::channel::WattersonChannel)) of mean power gain 1: `fading`
+//! is a condition name (`good`, `moderate`, `poor`, `flutter` or any other
+//! [`HfCondition::parse`](crate::channel::HfCondition::parse) name) or
+//! `{"delay_ms": 1.5, "doppler_spread_hz": 2, "paths": 3}` (equal-power paths spread evenly
+//! over the delay, default 2 paths, see [`FadingPaths`](super::emission::FadingPaths)). Each
+//! emission has its own channel, applied before the emissions are summed. `seed` defaults to
+//! one derived from the scene seed and the emission's index, so a scene always gives the
+//! same file. The drifting carrier must keep the emission inside ±fs/2 while it is active.
+//!
+//! # Impulse noise
+//! `impulse_noise` adds Poisson bursts ([`ImpulseNoise`]):
+//! `rate_hz` bursts per second (≥ 0, below the sample rate), each `duration_s` long (> 0,
+//! rounded to at least one sample, at most the scene's duration), of complex Gaussian noise of
+//! power `power_db` in dB re full scale² (E|w|² during a burst; absolute, so it works in a
+//! scene without noise), after the emissions and the white noise are summed and before the
+//! front-end `impairments`. A sample lies in a burst with probability 1 − e^(−rate·duration).
+//! `seed` defaults to one derived from the scene seed.
 
 use super::{ComplexNoise, Emission, EmissionSpec, IqImpairment};
+use crate::block::Block;
 use crate::channel::snr::{n0_from_cnr, n0_from_snr};
+use crate::channel::ImpulseNoise;
 use crate::io::SampleFormat;
 use crate::{Complex32, Error, Result};
 use serde::{Deserialize, Serialize};
 use std::path::{Path, PathBuf};
+
+/// Samples passed through the impulse-noise block per step (its scratch buffer).
+const IMPULSE_STEP: usize = 4096;
 
 /// Longest scene accepted, in samples (2⁴⁰, far beyond any test; common practice, no source).
 const MAX_SAMPLES: f64 = 1_099_511_627_776.0;
@@ -73,6 +109,21 @@ pub struct ImpairmentSpec {
     pub phase_deg: f64,
 }
 
+/// Poisson bursts of Gaussian noise added after the sum (see the module docs).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ImpulseNoiseSpec {
+    /// Mean burst rate λ, bursts per second.
+    pub rate_hz: f64,
+    /// Burst length T, s (rounded to at least one sample).
+    pub duration_s: f64,
+    /// Burst power E|w|² in dB re full scale².
+    pub power_db: f64,
+    /// Seed (default: derived from the scene seed).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub seed: Option<u64>,
+}
+
 /// A scene file's contents (see the module docs for the schema).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -95,6 +146,9 @@ pub struct Scene {
     /// White noise.
     #[serde(default)]
     pub noise: Option<NoiseSpec>,
+    /// Impulse noise, added after the sum and the white noise.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub impulse_noise: Option<ImpulseNoiseSpec>,
     /// Front-end impairments, applied after the noise.
     #[serde(default)]
     pub impairments: Option<ImpairmentSpec>,
@@ -163,6 +217,9 @@ impl Scene {
         if let Some(noise) = &self.noise {
             check_noise(noise, &self.emissions)?;
         }
+        if let Some(imp) = &self.impulse_noise {
+            self.check_impulses(imp)?;
+        }
         if let Some(imp) = &self.impairments {
             for (name, v) in [
                 ("dc_i", imp.dc_i),
@@ -176,25 +233,77 @@ impl Scene {
             }
         }
         for (i, e) in self.emissions.iter().enumerate() {
-            if let Some(mu) = e.mu.filter(|mu| !(mu.is_finite() && *mu >= 0.0)) {
-                return Err(format!(
-                    "emissions[{i}] '{}'.mu: {mu} must be finite and ≥ 0",
-                    e.label
-                ));
-            }
-            let edges = e
-                .edges_hz()
-                .map_err(|err| format!("emissions[{i}] '{}': {err}", e.label))?;
-            let half = self.sample_rate / 2.0;
-            if !(e.offset_hz.is_finite()
-                && e.offset_hz + edges.0 >= -half
-                && e.offset_hz + edges.1 <= half)
-            {
-                return Err(format!(
-                    "emissions[{i}] '{}'.offset_hz: {} Hz puts the emission ({}..{} Hz) beyond ±{half} Hz",
-                    e.label, e.offset_hz, e.offset_hz + edges.0, e.offset_hz + edges.1
-                ));
-            }
+            self.check_emission(e)
+                .map_err(|err| format!("emissions[{i}] '{}'{err}", e.label))?;
+        }
+        Ok(())
+    }
+
+    /// One emission's checks; the error starts with `.field` or `: problem`.
+    fn check_emission(&self, e: &EmissionSpec) -> std::result::Result<(), String> {
+        if let Some(mu) = e.mu.filter(|mu| !(mu.is_finite() && *mu >= 0.0)) {
+            return Err(format!(".mu: {mu} must be finite and ≥ 0"));
+        }
+        let edges = e.edges_hz().map_err(|err| format!(": {err}"))?;
+        let half = self.sample_rate / 2.0;
+        if !(e.offset_hz.is_finite()
+            && e.offset_hz + edges.0 >= -half
+            && e.offset_hz + edges.1 <= half)
+        {
+            return Err(format!(
+                ".offset_hz: {} Hz puts the emission ({}..{} Hz) beyond ±{half} Hz",
+                e.offset_hz,
+                e.offset_hz + edges.0,
+                e.offset_hz + edges.1
+            ));
+        }
+        let Some(channel) = &e.channel else {
+            return Ok(());
+        };
+        channel
+            .check(self.sample_rate)
+            .map_err(|err| format!(".channel.{err}"))?;
+        let (low, high) = channel.offset_range_hz(self.active_seconds(e));
+        let (lower, upper) = (e.offset_hz + low + edges.0, e.offset_hz + high + edges.1);
+        if lower < -half || upper > half {
+            return Err(format!(
+                ".channel: offset and drift move the emission to {lower}..{upper} Hz, beyond ±{half} Hz"
+            ));
+        }
+        Ok(())
+    }
+
+    /// How long an emission is active, s (from its start and stop times, within the scene).
+    fn active_seconds(&self, e: &EmissionSpec) -> f64 {
+        let start = e.start_s.unwrap_or(0.0).clamp(0.0, self.duration_s);
+        let stop = e
+            .stop_s
+            .unwrap_or(self.duration_s)
+            .clamp(start, self.duration_s);
+        stop - start
+    }
+
+    fn check_impulses(&self, imp: &ImpulseNoiseSpec) -> std::result::Result<(), String> {
+        if !(imp.rate_hz.is_finite() && imp.rate_hz >= 0.0 && imp.rate_hz < self.sample_rate) {
+            return Err(format!(
+                "impulse_noise.rate_hz: {} must be finite, ≥ 0 and below the sample rate",
+                imp.rate_hz
+            ));
+        }
+        if !(imp.duration_s.is_finite()
+            && imp.duration_s > 0.0
+            && imp.duration_s <= self.duration_s)
+        {
+            return Err(format!(
+                "impulse_noise.duration_s: {} must be positive and at most the scene's duration_s",
+                imp.duration_s
+            ));
+        }
+        if !imp.power_db.is_finite() {
+            return Err(format!(
+                "impulse_noise.power_db: {} must be finite",
+                imp.power_db
+            ));
         }
         Ok(())
     }
@@ -237,6 +346,8 @@ pub struct SceneGenerator {
     emissions: Vec<Emission>,
     noise: ComplexNoise,
     noise_power: f64,
+    impulses: Option<ImpulseNoise>,
+    impulse_scratch: Vec<Complex32>,
     front_end: Option<IqImpairment>,
     total: u64,
     produced: u64,
@@ -284,10 +395,26 @@ impl SceneGenerator {
             gain_db: imp.gain_db,
             phase_deg: imp.phase_deg,
         });
+        let impulses = scene
+            .impulse_noise
+            .map(|imp| {
+                ImpulseNoise::new(
+                    imp.rate_hz,
+                    imp.duration_s,
+                    10f64.powf(imp.power_db / 10.0),
+                    scene.sample_rate,
+                    imp.seed.unwrap_or(seed ^ 0x696d_7075_6c73_6521),
+                )
+            })
+            .transpose()?;
+        let impulse_scratch =
+            vec![Complex32::default(); if impulses.is_some() { IMPULSE_STEP } else { 0 }];
         Ok(SceneGenerator {
             emissions,
             noise: ComplexNoise::try_new(noise_power, seed ^ 0x2545_f491_4f6c_dd1d)?,
             noise_power,
+            impulses,
+            impulse_scratch,
             front_end,
             total,
             produced: 0,
@@ -319,6 +446,13 @@ impl SceneGenerator {
             e.add_to(out);
         }
         self.noise.add_to(out);
+        if let Some(imp) = &mut self.impulses {
+            for part in out.chunks_mut(IMPULSE_STEP) {
+                let scratch = &mut self.impulse_scratch[..part.len()];
+                scratch.copy_from_slice(part);
+                imp.process(scratch, part);
+            }
+        }
         if let Some(fe) = &self.front_end {
             fe.apply(out);
         }
