@@ -40,6 +40,14 @@ pub struct HilbertSpec {
 /// assert_eq!(taps[taps.len() / 2], 0.0);
 /// ```
 pub fn design_hilbert(spec: &HilbertSpec) -> Result<Vec<f32>> {
+    Ok(design_hilbert_f64(spec)?
+        .into_iter()
+        .map(|t| t as f32)
+        .collect())
+}
+
+/// [`design_hilbert`] in f64, for generators that need the taps beyond f32 precision.
+pub fn design_hilbert_f64(spec: &HilbertSpec) -> Result<Vec<f64>> {
     validate(spec)?;
     let transition = 2.0 * spec.low_edge_hz / spec.sample_rate;
     let n = kaiser_num_taps(spec.attenuation_db, transition);
@@ -53,7 +61,7 @@ pub fn design_hilbert(spec: &HilbertSpec) -> Result<Vec<f32>> {
     // Round up to 4k + 3 so that the end taps sit at odd offsets (nonzero).
     let n = n.div_ceil(4) * 4 + 3;
     let beta = kaiser_beta(spec.attenuation_db);
-    Ok(windowed_antisymmetric(n, beta, ideal_hilbert))
+    Ok(windowed_antisymmetric_f64(n, beta, ideal_hilbert))
 }
 
 /// The ideal Hilbert impulse response at offset `m` from the centre: 2/(πm) for odd m, else 0.
@@ -68,6 +76,14 @@ fn ideal_hilbert(m: i64) -> f64 {
 /// Taps of odd length `n`: `ideal(m)` at offset m = i − (n−1)/2, times a Kaiser window of
 /// `beta`; `ideal` must be odd in m so that the taps are antisymmetric (type III).
 pub fn windowed_antisymmetric(n: usize, beta: f64, ideal: impl Fn(i64) -> f64) -> Vec<f32> {
+    windowed_antisymmetric_f64(n, beta, ideal)
+        .into_iter()
+        .map(|t| t as f32)
+        .collect()
+}
+
+/// [`windowed_antisymmetric`] in f64.
+pub fn windowed_antisymmetric_f64(n: usize, beta: f64, ideal: impl Fn(i64) -> f64) -> Vec<f64> {
     let centre = (n / 2) as i64;
     let denominator = bessel_i0(beta);
     (0..n)
@@ -75,7 +91,7 @@ pub fn windowed_antisymmetric(n: usize, beta: f64, ideal: impl Fn(i64) -> f64) -
             let m = i as i64 - centre;
             let r = m as f64 / centre.max(1) as f64;
             let w = bessel_i0(beta * (1.0 - r * r).max(0.0).sqrt()) / denominator;
-            (ideal(m) * w) as f32
+            ideal(m) * w
         })
         .collect()
 }

@@ -7,8 +7,8 @@
 //! 0 (and on fs/2). With gain error ε the opposite sideband of a tone is (ε/2)² below the
 //! wanted one, so A = 80 dB (δ = 1e-4, ε ≈ 2e-4) leaves it about 80 dB down.
 
-use crate::dsp::kaiser::{bessel_i0, kaiser_beta, kaiser_num_taps, MAX_TAPS};
-use crate::{Error, Result};
+use crate::dsp::hilbert::{design_hilbert_f64, HilbertSpec};
+use crate::Result;
 use num_complex::Complex64;
 
 /// Stopband-equivalent attenuation of the Hilbert design, dB.
@@ -28,38 +28,16 @@ pub struct AnalyticFilter {
 impl AnalyticFilter {
     /// A filter exact (to [`HILBERT_ATTENUATION_DB`]) from `low_hz` to fs/2 − `low_hz`.
     pub fn new(low_hz: f64, sample_rate: f64) -> Result<Self> {
-        if !(sample_rate.is_finite()
-            && sample_rate > 0.0
-            && low_hz.is_finite()
-            && low_hz > 0.0
-            && low_hz < sample_rate / 4.0)
-        {
-            return Err(Error::parameter(
-                "Hilbert lower edge",
-                format!("{low_hz} Hz"),
-                format!("must lie in (0, {} Hz)", sample_rate / 4.0),
-            ));
-        }
-        let n = kaiser_num_taps(HILBERT_ATTENUATION_DB, 2.0 * low_hz / sample_rate) | 1;
-        // Type III needs K = (N−1)/2 odd so the outermost taps (odd offsets) are non-zero.
-        let n = if ((n - 1) / 2) % 2 == 0 { n + 2 } else { n };
-        if n > MAX_TAPS {
-            return Err(Error::parameter(
-                "Hilbert lower edge",
-                format!("{low_hz} Hz"),
-                format!("needs {n} taps, more than {MAX_TAPS}"),
-            ));
-        }
-        let half = (n - 1) / 2;
-        let beta = kaiser_beta(HILBERT_ATTENUATION_DB);
-        let odd_taps = (1..=half)
-            .step_by(2)
-            .map(|m| {
-                let r = m as f64 / half as f64;
-                let w = bessel_i0(beta * (1.0 - r * r).max(0.0).sqrt()) / bessel_i0(beta);
-                2.0 / (std::f64::consts::PI * m as f64) * w
-            })
-            .collect();
+        // The shared design (dsp::hilbert): Kaiser-windowed 2/(πm), length 4k + 3 so K is odd
+        // and the outermost taps (odd offsets) are non-zero.
+        let taps = design_hilbert_f64(&HilbertSpec {
+            low_edge_hz: low_hz,
+            attenuation_db: HILBERT_ATTENUATION_DB,
+            sample_rate,
+        })?;
+        let half = (taps.len() - 1) / 2;
+        let n = taps.len();
+        let odd_taps = (1..=half).step_by(2).map(|m| taps[half + m]).collect();
         Ok(AnalyticFilter {
             odd_taps,
             history: vec![0.0; 2 * n],

@@ -32,7 +32,7 @@ pub use am::AmToneTransmitter;
 pub use am_modulator::AmModulator;
 pub use complex_fir::ComplexFir;
 pub use dsb::DsbModulator;
-pub use emission::{Emission, EmissionSpec, MessageSpec, ModeSpec};
+pub use emission::{ChannelSpec, Emission, EmissionSpec, FadingSpec, MessageSpec, ModeSpec};
 pub use hilbert::AnalyticFilter;
 pub use impair::{quantize_cu8, IqImpairment};
 pub use isb::IsbModulator;
