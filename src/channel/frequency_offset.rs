@@ -4,8 +4,8 @@ use crate::block::Block;
 use crate::{Complex32, Error, Result};
 use num_complex::Complex64;
 
-/// Multiplies by e^{jφ[n]} with instantaneous frequency f[n] = f₀ + a·n/fs:
-/// φ[n] = 2π Σ_{k<n} f[k]/fs (so φ(t) ≈ 2π(f₀t + a t²/2)). Phase in f64 cycles, wrapped.
+/// Multiplies by e^{jφ\[n\]} with instantaneous frequency f\[n\] = f₀ + a·n/fs:
+/// φ\[n\] = 2π Σ_{k<n} f\[k\]/fs (so φ(t) ≈ 2π(f₀t + a t²/2)). Phase in f64 cycles, wrapped.
 ///
 /// ```
 /// use amrx::channel::FrequencyOffset;

@@ -1,6 +1,6 @@
 //! Oscillator phase noise as a Wiener process (random-walk phase) of set linewidth.
 //!
-//! Model: φ[n] = φ[n−1] + δ[n], δ ~ N(0, 2πΔν/fs). The phase diffusion gives
+//! Model: φ\[n\] = φ\[n−1\] + δ\[n\], δ ~ N(0, 2πΔν/fs). The phase diffusion gives
 //! E[e^{j(φ(t+τ) − φ(t))}] = e^{−πΔν|τ|}, a Lorentzian line of full width Δν at −3 dB
 //! (the standard free-running-oscillator result, e.g. the laser-linewidth model of
 //! C. H. Henry, "Theory of the linewidth of semiconductor lasers", IEEE J. Quantum Electron.,
@@ -12,7 +12,7 @@ use num_complex::Complex64;
 use rand::{rngs::StdRng, SeedableRng};
 use rand_distr::{Distribution, Normal};
 
-/// Multiplies by e^{jφ[n]} with φ a Wiener process of −3 dB linewidth Δν.
+/// Multiplies by e^{jφ\[n\]} with φ a Wiener process of −3 dB linewidth Δν.
 ///
 /// ```
 /// use amrx::channel::PhaseNoise;

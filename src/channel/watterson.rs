@@ -2,7 +2,7 @@
 //! Doppler spectra (C. C. Watterson, J. R. Juroshek, W. D. Bensema, "Experimental
 //! confirmation of an HF channel model", IEEE Trans. Commun. Technol., 1970).
 //!
-//! y[n] = Σ_p a_p·g_p[n]·e^{j2πν_p n/fs}·x[n − d_p], with d_p = round(τ_p·fs) an exact whole
+//! y\[n\] = Σ_p a_p·g_p\[n\]·e^{j2πν_p n/fs}·x[n − d_p], with d_p = round(τ_p·fs) an exact whole
 //! number of samples, g_p a [`TapGain`] of unit power and Doppler σ_p (spread 2σ_p), ν_p a
 //! Doppler shift and a_p² the path's share of the power. The standard conditions use two
 //! equal-power paths (a_p² = 1/2, so the mean channel power gain is 1), delays 0 and τ.

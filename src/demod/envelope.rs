@@ -3,7 +3,7 @@
 use crate::block::Block;
 use crate::Complex32;
 
-/// Ideal envelope detector, y[n] = |x[n]| = √(I² + Q²).
+/// Ideal envelope detector, y\[n\] = |x\[n\]| = √(I² + Q²).
 ///
 /// On a channel-filtered full-carrier AM signal this recovers A_c·|1 + μ·m(t)|: the message plus
 /// the carrier's DC, and the folded (distorted) envelope when μ·m(t) < −1.

@@ -2,7 +2,7 @@
 //!
 //! Ideal discrete-time Hilbert transformer (Oppenheim & Schafer, *Discrete-Time Signal
 //! Processing*, sec. 12.4): H(e^jω) = −j for 0 < ω < π, +j for −π < ω < 0, with impulse
-//! response h[n] = 2/(πn) for odd n and 0 for even n. Truncated to N = 4k + 3 taps (odd
+//! response h\[n\] = 2/(πn) for odd n and 0 for even n. Truncated to N = 4k + 3 taps (odd
 //! length, antisymmetric: a type-III linear-phase FIR, delay (N−1)/2, zeros at 0 and fs/2)
 //! and shaped by a Kaiser window. The response near 0 and fs/2 is a windowed jump of size 2,
 //! so the ripple is about twice the window's low-pass ripple δ = 10^(−A/20) and the
@@ -134,7 +134,7 @@ fn validate(spec: &HilbertSpec) -> Result<()> {
     Ok(())
 }
 
-/// A Hilbert transformer on real samples: y[n] = Σ h[k]·x[n−k] with taps from
+/// A Hilbert transformer on real samples: y\[n\] = Σ h\[k\]·x\[n−k\] with taps from
 /// [`design_hilbert`], delay (N−1)/2 samples.
 #[derive(Debug, Clone)]
 pub struct HilbertFir {

@@ -192,7 +192,7 @@ impl PowerSpectrum {
     }
 
     /// Correlation ρ between successive overlapping frames' windows,
-    /// Σ w[n]·w[n+N/2] / Σ w² (Welch 1967; 1/6 for Hann at 50 % overlap).
+    /// Σ w\[n\]·w[n+N/2] / Σ w² (Welch 1967; 1/6 for Hann at 50 % overlap).
     pub fn overlap_correlation(&self) -> f64 {
         let hop = self.fft_len / 2;
         let cross: f64 = self.window[..hop]

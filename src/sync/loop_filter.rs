@@ -71,7 +71,7 @@ impl LoopGains {
         Self::design(bandwidth_hz / sample_rate, zeta, 1.0)
     }
 
-    /// The loop's closed-loop phase impulse response h[n] for `len` samples: the phase the NCO
+    /// The loop's closed-loop phase impulse response h\[n\] for `len` samples: the phase the NCO
     /// takes in response to a unit phase impulse at the input, in the loop's linear model.
     pub fn closed_loop_impulse_response(&self, len: usize) -> Vec<f64> {
         let mut out = Vec::with_capacity(len);
@@ -88,7 +88,7 @@ impl LoopGains {
     }
 
     /// The one-sided noise bandwidth B_n·T measured from the impulse response:
-    /// B_n·T = ½·Σ h[n]² (Parseval; one-sided, normalised to the unit DC gain of the loop).
+    /// B_n·T = ½·Σ h\[n\]² (Parseval; one-sided, normalised to the unit DC gain of the loop).
     pub fn measured_noise_bandwidth(&self, len: usize) -> f64 {
         let h = self.closed_loop_impulse_response(len);
         0.5 * h.iter().map(|x| x * x).sum::<f64>()

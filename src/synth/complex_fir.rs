@@ -55,7 +55,7 @@ impl ComplexFir {
         window.iter().zip(&self.reversed).map(|(a, b)| a * b).sum()
     }
 
-    /// The frequency response Σ h[k] e^{−j2πfk/fs}.
+    /// The frequency response Σ h\[k\] e^{−j2πfk/fs}.
     pub fn response(&self, frequency_hz: f64, sample_rate: f64) -> Complex64 {
         let n = self.reversed.len();
         self.reversed

@@ -1,6 +1,6 @@
 //! The analytic message m + j·Ĥ{m} for single-sideband generation, by a Hilbert FIR.
 //!
-//! Design: the ideal Hilbert transformer h[m] = 2/(πm) for odd m, 0 for even m (Oppenheim &
+//! Design: the ideal Hilbert transformer h\[m\] = 2/(πm) for odd m, 0 for even m (Oppenheim &
 //! Schafer, Discrete-Time Signal Processing, sec. 12.4.3), times a Kaiser window (type III:
 //! odd length, antisymmetric, zeros at 0 and fs/2). Its response −j·sign(f) is exact to the
 //! window's ripple δ = 10^(−A/20) × the jump of 2 outside a transition 2·f_lo wide centred on

@@ -10,7 +10,7 @@ pub trait MessageSource: Send + std::fmt::Debug {
     /// split between calls.
     fn fill(&mut self, out: &mut [f64]);
 
-    /// Mean square E[m²] of the message (known from its construction or measured on it).
+    /// Mean square E\[m²\] of the message (known from its construction or measured on it).
     fn mean_square(&self) -> f64;
 
     /// The band the message occupies, (lowest, highest) frequency in Hz: below the lowest and

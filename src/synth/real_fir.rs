@@ -2,7 +2,7 @@
 //!
 //! Design: the Kaiser window method (J. F. Kaiser, "Nonrecursive digital filter design using
 //! the I0-sinh window function", 1974; Oppenheim & Schafer, Discrete-Time Signal Processing,
-//! sec. 7.5-7.6): h[n] = (2f₂ sinc(2f₂m) − 2f₁ sinc(2f₁m))·w[n], m = n − (N−1)/2, cutoffs at
+//! sec. 7.5-7.6): h\[n\] = (2f₂ sinc(2f₂m) − 2f₁ sinc(2f₁m))·w\[n\], m = n − (N−1)/2, cutoffs at
 //! mid-transition. Both edges share the window, hence the same transition width.
 
 use crate::block::Block;
