@@ -1,30 +1,37 @@
 //! The example receiver: a recorded IQ file in, audio out, using only the public library API.
 //!
 //! ```text
-//! cargo run --release --example receiver -- INPUT OFFSET_HZ OUT.wav
+//! cargo run --release --example receiver -- INPUT OFFSET_HZ OUT.wav [MODE]
 //! cargo run --release -- demo /tmp/amrx-demo
 //! cargo run --release --example receiver -- /tmp/amrx-demo/demo-scene.sigmf-meta 95000 /tmp/b.wav
+//! cargo run --release --example receiver -- /tmp/amrx-demo/demo-scene.sigmf-meta -40000 /tmp/d.wav usb
 //! ```
 
-use amrx::demod::{AmConfig, AmReceiver, Receiver};
+use amrx::demod::{build_receiver, Mode, ReceiverConfig};
 use amrx::io::{open_input, AudioSink, InputOptions, WavAudioSink};
 use amrx::pipeline::{run_stream, RuntimeConfig};
 use std::path::PathBuf;
 
 fn main() -> Result<(), Box<dyn std::error::Error>> {
     let args: Vec<String> = std::env::args().skip(1).collect();
-    let [input, offset, out] = args.as_slice() else {
-        eprintln!("usage: receiver INPUT OFFSET_HZ OUT.wav");
-        std::process::exit(2);
+    let (input, offset, out, mode) = match args.as_slice() {
+        [input, offset, out] => (input, offset, out, Mode::Am),
+        [input, offset, out, mode] => (input, offset, out, mode.parse::<Mode>()?),
+        _ => {
+            eprintln!("usage: receiver INPUT OFFSET_HZ OUT.wav [am|sam|dsb|usb|lsb|isb|vsb]");
+            std::process::exit(2);
+        }
     };
     let mut source = open_input(&PathBuf::from(input), &InputOptions::default())?;
-    let config = AmConfig::new(source.info().sample_rate, offset.parse()?);
-    let mut receiver = AmReceiver::new(config)?;
-    let mut sink = WavAudioSink::create(&PathBuf::from(out), 48_000, 1, false)?;
+    let config = ReceiverConfig::new(source.info().sample_rate, offset.parse()?);
+    let mut receiver = build_receiver(mode, &config)?;
+    let channels = receiver.audio_channels() as u16;
+    let rate = receiver.audio_rate() as u32;
+    let mut sink = WavAudioSink::create(&PathBuf::from(out), rate, channels, false)?;
 
     let totals = run_stream(
         |buf| source.read(buf),
-        &mut receiver,
+        receiver.as_mut(),
         |audio| sink.write(audio),
         RuntimeConfig::default(),
     )?;
