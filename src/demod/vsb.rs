@@ -18,12 +18,13 @@ use super::config::{LoopSettings, Sideband};
 use super::front_end::{validate_tuning, ChannelFrontEnd, FrontEndConfig, CHUNK};
 use super::pieces::Pieces;
 use super::receiver::{Measurements, Receiver};
-use super::ssb::{CarrierLock, DEFAULT_LOCK_BANDWIDTH_HZ};
+use super::ssb::DEFAULT_LOCK_BANDWIDTH_HZ;
 use super::PhasingDetector;
 use crate::block::Block;
 use crate::dsp::hilbert::windowed_antisymmetric;
 use crate::dsp::{kaiser_beta, kaiser_num_taps, Agc, AgcSettings};
 use crate::measure::find_carrier;
+use crate::sync::carrier_lock::CarrierLock;
 use crate::{Complex32, Error, Result};
 use std::f64::consts::PI;
 

@@ -1,6 +1,7 @@
 //! Carrier recovery: second-order loop design, a carrier PLL and a Costas loop.
 
 pub mod acquisition;
+pub mod carrier_lock;
 pub mod costas;
 pub mod loop_filter;
 pub mod pll;
