@@ -16,6 +16,7 @@ pub mod mode;
 pub(crate) mod pieces;
 pub mod receiver;
 pub mod sam;
+pub mod sideband_selector;
 pub mod ssb;
 pub mod ssb_phasing;
 pub mod ssb_weaver;

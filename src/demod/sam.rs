@@ -19,8 +19,9 @@ use super::config::{ReceiverConfig, Sideband};
 use super::front_end::{validate_tuning, ChannelFrontEnd, FrontEndConfig, CHUNK};
 use super::pieces::Pieces;
 use super::receiver::{Measurements, Receiver};
+use super::sideband_selector::SidebandSelector;
 use crate::block::Block;
-use crate::dsp::{design_lowpass, Agc, AgcSettings, Fir, LowpassSpec, Mixer};
+use crate::dsp::{Agc, AgcSettings};
 use crate::measure::ModulationMeter;
 use crate::sync::{CarrierAcquisition, CarrierKind, CarrierPll, PllConfig};
 use crate::{Complex32, Result};
@@ -28,11 +29,6 @@ use crate::{Complex32, Result};
 /// The carrier is searched for within this far of the tuned frequency, at most (half the
 /// bandwidth when that is smaller; common practice, no source).
 pub const CARRIER_SEARCH_HZ: f64 = 1000.0;
-/// Transition band of the sideband selector's low-pass, as a fraction of W (within 100–500 Hz;
-/// common practice, no source).
-const SIDEBAND_TRANSITION: f64 = 0.1;
-/// Stopband attenuation of the sideband selector (common practice, no source).
-const SIDEBAND_ATTENUATION_DB: f64 = 70.0;
 /// Loop time constants 1/B_L allowed for lock after acquisition before the modulation meter
 /// starts (common practice, no source).
 const LOCK_ALLOWANCE_TIME_CONSTANTS: f64 = 10.0;
@@ -113,13 +109,6 @@ impl SamConfig {
     }
 }
 
-/// The Weaver sideband selector's parts: shift by ∓W/2, low-pass ±W/2, shift back.
-struct SidebandSelector {
-    down: Mixer,
-    lowpass: Fir<Complex32>,
-    up: Mixer,
-}
-
 /// Synchronous AM receiver.
 pub struct SamReceiver {
     config: SamConfig,
@@ -162,7 +151,7 @@ impl SamReceiver {
         Ok(SamReceiver {
             selector: config
                 .sideband
-                .map(|side| sideband_selector(side, config.bandwidth_hz, rate))
+                .map(|side| SidebandSelector::new(side, config.bandwidth_hz, rate, mid))
                 .transpose()?,
             agc: Agc::new(config.agc, rate)?,
             audio: AudioStage::new(rate, config.audio_rate, config.bandwidth_hz, mid)?,
@@ -199,27 +188,6 @@ impl SamReceiver {
     }
 }
 
-/// The Weaver selector keeping `side` of a message of bandwidth `w` at `rate`.
-fn sideband_selector(side: Sideband, w: f64, rate: f64) -> Result<SidebandSelector> {
-    let half = 0.5 * w;
-    let shift = match side {
-        Sideband::Upper => -half,
-        Sideband::Lower => half,
-    };
-    let transition = (SIDEBAND_TRANSITION * w).clamp(100.0, 500.0);
-    let taps = design_lowpass(&LowpassSpec {
-        passband_hz: half,
-        stopband_hz: (half + transition).min(0.5 * rate),
-        attenuation_db: SIDEBAND_ATTENUATION_DB,
-        sample_rate: rate,
-    })?;
-    Ok(SidebandSelector {
-        down: Mixer::new(shift, rate)?,
-        lowpass: Fir::new(&taps)?,
-        up: Mixer::new(-shift, rate)?,
-    })
-}
-
 impl Pieces for SamReceiver {
     fn piece_bound(&self, n: usize) -> usize {
         self.audio.max_output_len(self.front.max_output_len(n))
@@ -236,10 +204,8 @@ impl Pieces for SamReceiver {
         self.settling -= skip;
         self.meter.push(&self.detected[skip..n]);
         if let Some(selector) = self.selector.as_mut() {
-            let (derotated, shifted) = (&mut self.derotated[..n], &mut self.shifted[..n]);
-            selector.down.process(derotated, shifted);
-            selector.lowpass.process(shifted, derotated);
-            selector.up.process(derotated, shifted);
+            let shifted = &mut self.shifted[..n];
+            selector.process(&self.derotated[..n], shifted);
             for (d, y) in self.detected[..n].iter_mut().zip(shifted.iter()) {
                 *d = 2.0 * y.re;
             }
@@ -265,7 +231,7 @@ impl Block for SamReceiver {
 
     fn delay(&self) -> f64 {
         let factor = self.config.input_rate / self.detection_rate();
-        let selector = self.selector.as_ref().map_or(0.0, |s| s.lowpass.delay());
+        let selector = self.selector.as_ref().map_or(0.0, |s| s.delay());
         self.front.delay() + (selector + self.audio.delay()) * factor
     }
 
