@@ -6,6 +6,9 @@ use super::sweep::SweepResult;
 /// μ = 0.5 (Haykin, Communication Systems, ch. 2: well below threshold, ~2 dB/dB).
 pub const SQUARE_LAW_SPAN_DB: (f64, f64) = (-12.0, -6.0);
 
+/// How far above the measurement floor a slope's points must read (common practice, no source).
+const FLOOR_MARGIN_DB: f64 = 10.0;
+
 /// One line per finding: where each detector falls 1 dB and 3 dB below its theory, and its
 /// slopes below and above threshold, where the sweep covers them.
 pub fn summary_lines(result: &SweepResult) -> Vec<String> {
@@ -24,10 +27,15 @@ pub fn summary_lines(result: &SweepResult) -> Vec<String> {
             });
         }
         let (low, high) = SQUARE_LAW_SPAN_DB;
-        if let Some(s) = curve.slope(low, high) {
-            lines.push(format!(
-                "  slope over channel SNR {low}…{high} dB: {s:.2} dB/dB"
-            ));
+        let floor = result.measurement_floor_db();
+        match curve.slope(low, high) {
+            Some(s) if curve.clear_of(floor, FLOOR_MARGIN_DB, low, high) => {
+                lines.push(format!("  slope over channel SNR {low}…{high} dB: {s:.2} dB/dB"))
+            }
+            Some(_) => lines.push(format!(
+                "  slope over channel SNR {low}…{high} dB not read: within {FLOOR_MARGIN_DB} dB of the measurement floor ({floor:.1} dB); use longer trials or a wider --bandwidth"
+            )),
+            None => {}
         }
         if let Some(s) = curve.slope(20.0, 30.0) {
             lines.push(format!("  slope over channel SNR 20…30 dB: {s:.2} dB/dB"));

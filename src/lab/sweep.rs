@@ -228,6 +228,14 @@ impl Curve {
         (sxx > 0.0).then(|| sxy / sxx)
     }
 
+    /// True when every point in [from_db, to_db] reads at least `margin_db` above `floor_db`.
+    pub fn clear_of(&self, floor_db: f64, margin_db: f64, from_db: f64, to_db: f64) -> bool {
+        self.points
+            .iter()
+            .filter(|p| (from_db..=to_db).contains(&p.channel_snr_db))
+            .all(|p| p.output_snr_db >= floor_db + margin_db)
+    }
+
     /// The point nearest to `channel_snr_db`.
     pub fn at(&self, channel_snr_db: f64) -> Option<&SweepPoint> {
         self.points.iter().min_by(|a, b| {
@@ -248,6 +256,12 @@ pub struct SweepResult {
 }
 
 impl SweepResult {
+    /// The lowest output SNR the tone method can read: the fitted tone picks up the noise that
+    /// falls on it, P_n/(W·T), so readings near −10·log10(W·T) dB are floor, not signal.
+    pub fn measurement_floor_db(&self) -> f64 {
+        -10.0 * (self.spec.trial.bandwidth_hz * self.spec.trial.seconds).log10()
+    }
+
     /// The first curve of `detector`.
     pub fn curve(&self, detector: &Detector) -> Option<&Curve> {
         self.curves.iter().find(|c| &c.detector == detector)
@@ -425,5 +439,24 @@ mod tests {
             });
         assert_eq!(one, many);
         assert_eq!(calls.load(Ordering::Relaxed), 6);
+    }
+
+    #[test]
+    fn clear_of_the_floor_only_when_every_point_in_the_span_is() {
+        let point = |snr: f64, out: f64| SweepPoint {
+            input_db: snr,
+            channel_snr_db: snr,
+            cnr_db: None,
+            output_snr_db: out,
+            stderr_db: 0.0,
+            theory_db: out,
+            trials: 1,
+        };
+        let curve = Curve {
+            detector: Detector::Receiver(crate::demod::Mode::Am),
+            points: vec![point(-12.0, -30.0), point(-6.0, -18.0), point(0.0, -9.0)],
+        };
+        assert!(!curve.clear_of(-34.0, 10.0, -12.0, -6.0));
+        assert!(curve.clear_of(-34.0, 10.0, -6.0, 0.0));
     }
 }
