@@ -2,9 +2,9 @@
 //!
 //! A gain and phase mismatch between the I and Q paths turns a received signal z into
 //! x = K1·z + K2·conj(z): every signal gets a mirror image at the opposite frequency, typically
-//! 25–40 dB down on cheap hardware. Received signals are proper (circular): E[z²] = 0, while the
-//! image makes E[x²] ≠ 0. The corrector y = x + w·conj(x) adapts w by the stochastic gradient
-//! w ← w − μ·y²/P until E[y²] = 0, which removes the image (M. Valkama, M. Renfors and
+//! 25–40 dB down on cheap hardware. Received signals are proper (circular): E\[z²\] = 0, while the
+//! image makes E\[x²\] ≠ 0. The corrector y = x + w·conj(x) adapts w by the stochastic gradient
+//! w ← w − μ·y²/P until E\[y²\] = 0, which removes the image (M. Valkama, M. Renfors and
 //! V. Koivunen, "Advanced methods for I/Q imbalance compensation in communication receivers",
 //! IEEE Trans. Signal Processing, 2001 — citation from memory; the normalisation by the power
 //! P is ours).
