@@ -104,6 +104,9 @@ struct DemodArgs {
     /// Gain control (the mode's default when absent).
     #[arg(long, value_enum, conflicts_with = "gain")]
     agc: Option<AgcArg>,
+    /// Correct the front end's IQ gain and phase imbalance blindly (removes mirror images).
+    #[arg(long)]
+    iq_balance: bool,
     /// Fixed audio gain in dB instead of AGC.
     #[arg(long, allow_negative_numbers = true)]
     gain: Option<f64>,
@@ -343,6 +346,7 @@ fn receiver_options(args: &DemodArgs) -> ReceiverOptions {
             damping: args.loop_damping,
         },
         agc,
+        iq_balance: args.iq_balance,
     }
 }
 

@@ -1,7 +1,7 @@
 //! Builds the receiver for a mode from the shared settings, refusing options the mode lacks.
 
 use super::config::ReceiverConfig;
-use super::{AmConfig, AmReceiver, Mode, Receiver};
+use super::{AmConfig, AmReceiver, IqCorrected, Mode, Receiver};
 use super::{DsbConfig, DsbReceiver, SamConfig, SamReceiver};
 use super::{IsbConfig, IsbReceiver, Sideband, SsbConfig, SsbReceiver, VsbConfig, VsbReceiver};
 use crate::dsp::AgcSettings;
@@ -15,6 +15,15 @@ use crate::{Error, Result};
 /// assert_eq!(rx.audio_channels(), 1);
 /// ```
 pub fn build_receiver(mode: Mode, config: &ReceiverConfig) -> Result<Box<dyn Receiver>> {
+    let receiver = build_mode(mode, config)?;
+    if config.options.iq_balance {
+        Ok(Box::new(IqCorrected::new(receiver, config.input_rate)?))
+    } else {
+        Ok(receiver)
+    }
+}
+
+fn build_mode(mode: Mode, config: &ReceiverConfig) -> Result<Box<dyn Receiver>> {
     check_options(mode, config)?;
     match mode {
         Mode::Am => {

@@ -58,6 +58,8 @@ pub struct ReceiverOptions {
     pub loop_settings: LoopSettings,
     /// Gain control; the mode's default when `None`.
     pub agc: Option<AgcSettings>,
+    /// Correct the front end's IQ gain and phase imbalance blindly before receiving.
+    pub iq_balance: bool,
 }
 
 impl Default for ReceiverOptions {
@@ -70,6 +72,7 @@ impl Default for ReceiverOptions {
             carrier_lock: false,
             loop_settings: LoopSettings::default(),
             agc: None,
+            iq_balance: false,
         }
     }
 }

@@ -8,7 +8,9 @@
 //! V. Koivunen, "Advanced methods for I/Q imbalance compensation in communication receivers",
 //! IEEE Trans. Signal Processing, 2001 — citation from memory; the normalisation by the power
 //! P is ours).
-//! Remove DC first: a DC offset is not circular and would bias w.
+//! Remove DC first: a DC offset is not circular and would bias w. Two emissions at exactly
+//! mirrored frequencies with locked phases are not circular either, and the canceller would
+//! treat one as the other's image; independent stations average out.
 
 use crate::block::Block;
 use crate::{Complex32, Error, Result};
