@@ -377,3 +377,26 @@ fn synth_then_demod_the_sideband_modes() {
         );
     }
 }
+
+#[test]
+fn iq_balance_option_runs_ahead_of_any_mode() {
+    let dir = scratch_dir("cli-iq-balance");
+    let rec = recording(&dir);
+    for mode in ["am", "sam"] {
+        let wav = dir.join(format!("{mode}.wav"));
+        ok(&[
+            "demod",
+            &rec,
+            "--mode",
+            mode,
+            "--offset",
+            "-25000",
+            "--iq-balance",
+            "--out",
+            &wav.display().to_string(),
+        ]);
+        let (audio, _) = read_wav(&wav);
+        let tone = estimate_tone_hz(&audio[9600..], 48_000.0).unwrap();
+        assert!((tone - 1000.0).abs() < 0.5, "{mode}: tone {tone}");
+    }
+}
