@@ -60,6 +60,11 @@ impl SamConfig {
     /// Default loop bandwidth: wide enough to follow drift and lock in tens of milliseconds,
     /// narrow enough for a clean reference at low CNR (common practice, no source).
     pub const DEFAULT_LOOP_BANDWIDTH_HZ: f64 = 30.0;
+    /// Default loop bandwidth with one sideband kept: a neighbour on the rejected side
+    /// phase-modulates the reference through the loop's closed-loop response, which falls with
+    /// B_L, so a narrower loop rejects it further (measured: 43.7 dB at 30 Hz, 52.2 dB at
+    /// 10 Hz for a neighbour 2 kHz away); the coarse FFT acquisition keeps lock-in fast.
+    pub const DEFAULT_SIDEBAND_LOOP_BANDWIDTH_HZ: f64 = 10.0;
     /// Default gain control: off, so the audio level follows the carrier as with `am`.
     pub const DEFAULT_AGC: AgcSettings = AgcSettings::OFF;
 
@@ -88,7 +93,11 @@ impl SamConfig {
             loop_bandwidth_hz: o
                 .loop_settings
                 .bandwidth_hz
-                .unwrap_or(defaults.loop_bandwidth_hz),
+                .unwrap_or(if o.sideband.is_some() {
+                    Self::DEFAULT_SIDEBAND_LOOP_BANDWIDTH_HZ
+                } else {
+                    defaults.loop_bandwidth_hz
+                }),
             loop_damping: o.loop_settings.damping.unwrap_or(defaults.loop_damping),
             agc: o.agc.unwrap_or(Self::DEFAULT_AGC),
             ..defaults
