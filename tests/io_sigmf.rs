@@ -2,47 +2,13 @@
 //! written metadata against the published SigMF schema (tests/data/sigmf-schema.json).
 
 use amrx::io::{IqSource, SampleFormat, SigmfAnnotation, SigmfSource, SigmfWriter};
+mod common;
+
 use amrx::{Complex32, Error};
+use common::{c, read_all, TempDir};
 use rand::{rngs::StdRng, RngExt, SeedableRng};
 use serde_json::Value;
 use std::path::{Path, PathBuf};
-
-/// A fresh directory under the system temp dir, removed when dropped.
-struct TempDir(PathBuf);
-
-impl TempDir {
-    fn new(name: &str) -> Self {
-        let dir = std::env::temp_dir().join(format!("amrx-io-sigmf-{}-{name}", std::process::id()));
-        let _ = std::fs::remove_dir_all(&dir);
-        std::fs::create_dir_all(&dir).unwrap();
-        TempDir(dir)
-    }
-    fn path(&self, file: &str) -> PathBuf {
-        self.0.join(file)
-    }
-}
-
-impl Drop for TempDir {
-    fn drop(&mut self) {
-        let _ = std::fs::remove_dir_all(&self.0);
-    }
-}
-
-fn c(re: f32, im: f32) -> Complex32 {
-    Complex32::new(re, im)
-}
-
-fn read_all(source: &mut dyn IqSource, chunk: usize) -> Vec<Complex32> {
-    let mut all = Vec::new();
-    let mut buf = vec![c(0.0, 0.0); chunk];
-    loop {
-        let n = source.read(&mut buf).unwrap();
-        if n == 0 {
-            return all;
-        }
-        all.extend_from_slice(&buf[..n]);
-    }
-}
 
 fn write_recording(base: &Path, format: SampleFormat, samples: &[Complex32]) {
     let mut w = SigmfWriter::create(base, format, 48_000.0, Some(7.1e6), "test tone").unwrap();

@@ -70,3 +70,50 @@ pub fn read_wav(path: &Path) -> (Vec<f32>, u32) {
     };
     (samples, rate)
 }
+
+/// A fresh directory under the system temp dir, named after the test binary, the process and
+/// `name`, removed when dropped.
+pub struct TempDir(PathBuf);
+
+impl TempDir {
+    /// Creates the (empty) directory.
+    pub fn new(name: &str) -> Self {
+        let dir = std::env::temp_dir().join(format!(
+            "amrx-{}-{}-{name}",
+            env!("CARGO_CRATE_NAME"),
+            std::process::id()
+        ));
+        let _ = std::fs::remove_dir_all(&dir);
+        std::fs::create_dir_all(&dir).expect("temp folder is writable");
+        TempDir(dir)
+    }
+
+    /// A file inside the directory.
+    pub fn path(&self, file: &str) -> PathBuf {
+        self.0.join(file)
+    }
+}
+
+impl Drop for TempDir {
+    fn drop(&mut self) {
+        let _ = std::fs::remove_dir_all(&self.0);
+    }
+}
+
+/// Shorthand for a complex sample.
+pub fn c(re: f32, im: f32) -> Complex32 {
+    Complex32::new(re, im)
+}
+
+/// Reads a source to its end in reads of `chunk` samples.
+pub fn read_all(source: &mut dyn amrx::io::IqSource, chunk: usize) -> Vec<Complex32> {
+    let mut all = Vec::new();
+    let mut buf = vec![c(0.0, 0.0); chunk];
+    loop {
+        let n = source.read(&mut buf).expect("readable source");
+        if n == 0 {
+            return all;
+        }
+        all.extend_from_slice(&buf[..n]);
+    }
+}
