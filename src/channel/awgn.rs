@@ -82,6 +82,14 @@ impl Block for Awgn {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
+    fn delay(&self) -> f64 {
+        0.0
+    }
+
     fn reset(&mut self) {
         let power = self.noise.power();
         self.noise = ComplexNoise::new(power, self.seed);

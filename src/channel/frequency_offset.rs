@@ -67,6 +67,14 @@ impl Block for FrequencyOffset {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
+    fn delay(&self) -> f64 {
+        0.0
+    }
+
     fn reset(&mut self) {
         self.step = self.start_step;
         self.phase = 0.0;

@@ -120,6 +120,14 @@ impl Block for ImpulseNoise {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
+    fn delay(&self) -> f64 {
+        0.0
+    }
+
     fn reset(&mut self) {
         self.rng = StdRng::seed_from_u64(self.seed);
         self.position = 0;

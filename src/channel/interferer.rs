@@ -62,6 +62,14 @@ impl Block for Interferer {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
+    fn delay(&self) -> f64 {
+        0.0
+    }
+
     fn reset(&mut self) {
         if let Ok(e) = Emission::new(
             &self.spec,

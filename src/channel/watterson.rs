@@ -276,6 +276,14 @@ impl Block for WattersonChannel {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
+    fn delay(&self) -> f64 {
+        0.0
+    }
+
     fn reset(&mut self) {
         if let Ok(fresh) = WattersonChannel::new(&self.specs, self.sample_rate, self.seed) {
             *self = fresh;

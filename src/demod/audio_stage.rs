@@ -67,6 +67,10 @@ impl Block for AudioStage {
         self.resampler.max_output_len(input_len)
     }
 
+    fn rate_ratio(&self) -> f64 {
+        self.resampler.rate_ratio()
+    }
+
     fn delay(&self) -> f64 {
         self.resampler.delay()
     }

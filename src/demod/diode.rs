@@ -274,6 +274,10 @@ impl Block for DiodeDetector {
         input_len + 1
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
     fn delay(&self) -> f64 {
         let l = self.config.oversample as f64;
         self.interpolator.delay() / l + self.decimator.delay() / l

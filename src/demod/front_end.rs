@@ -177,6 +177,10 @@ impl Block for ChannelFrontEnd {
         pieces_bound(input_len, CHUNK, |n| self.decimator.max_output_len(n))
     }
 
+    fn rate_ratio(&self) -> f64 {
+        self.detection_rate / self.config.input_rate
+    }
+
     fn delay(&self) -> f64 {
         let factor = self.config.input_rate / self.detection_rate;
         self.decimator.delay() + self.channel.delay() * factor

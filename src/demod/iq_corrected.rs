@@ -65,6 +65,10 @@ impl Block for IqCorrected {
         crate::block::pieces_bound(input_len, PIECE, |n| self.inner.max_output_len(n))
     }
 
+    fn rate_ratio(&self) -> f64 {
+        self.inner.rate_ratio()
+    }
+
     fn delay(&self) -> f64 {
         self.inner.delay()
     }

@@ -181,6 +181,10 @@ impl Block for IsbReceiver {
         self.pieces_output_len(input_len)
     }
 
+    fn rate_ratio(&self) -> f64 {
+        2.0 * self.config.audio_rate / self.config.input_rate
+    }
+
     fn delay(&self) -> f64 {
         let factor = self.config.input_rate / self.detection_rate();
         self.front.delay() + (self.upper.detector.delay() + self.upper.audio.delay()) * factor

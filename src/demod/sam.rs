@@ -238,6 +238,10 @@ impl Block for SamReceiver {
         self.pieces_output_len(input_len)
     }
 
+    fn rate_ratio(&self) -> f64 {
+        self.config.audio_rate / self.config.input_rate
+    }
+
     fn delay(&self) -> f64 {
         let factor = self.config.input_rate / self.detection_rate();
         let selector = self.selector.as_ref().map_or(0.0, |s| s.delay());

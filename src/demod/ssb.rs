@@ -229,6 +229,10 @@ impl Block for SsbReceiver {
         self.pieces_output_len(input_len)
     }
 
+    fn rate_ratio(&self) -> f64 {
+        self.config.audio_rate / self.config.input_rate
+    }
+
     fn delay(&self) -> f64 {
         let factor = self.config.input_rate / self.detection_rate();
         self.front.delay() + (self.detector.delay() + self.audio.delay()) * factor

@@ -194,6 +194,10 @@ impl Block for PhasingDetector {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
     fn delay(&self) -> f64 {
         self.delay.len() as f64
     }

@@ -129,6 +129,10 @@ impl Block for WeaverDetector {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
     fn delay(&self) -> f64 {
         self.lowpass.delay()
     }

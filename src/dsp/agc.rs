@@ -195,6 +195,14 @@ impl Block for Agc {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
+    fn delay(&self) -> f64 {
+        0.0
+    }
+
     fn reset(&mut self) {
         self.hang_left = 0;
         self.level = self.min_level;

@@ -79,6 +79,14 @@ impl<T: Sample> Block for DcBlocker<T> {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
+    fn delay(&self) -> f64 {
+        0.0
+    }
+
     fn reset(&mut self) {
         self.last_input = T::ZERO;
         self.last_output = T::ZERO;

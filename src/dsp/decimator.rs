@@ -100,6 +100,10 @@ impl<T: Sample> Block for FirDecimator<T> {
         input_len.div_ceil(self.factor)
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0 / self.factor as f64
+    }
+
     /// (taps − 1)/2 input samples, exact for symmetric taps.
     fn delay(&self) -> f64 {
         (self.taps.len() as f64 - 1.0) / 2.0

@@ -76,6 +76,10 @@ impl<T: Sample> Block for Fir<T> {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
     /// (taps − 1)/2: exact for the symmetric (linear-phase) taps this crate designs.
     fn delay(&self) -> f64 {
         (self.taps.len() as f64 - 1.0) / 2.0

@@ -185,6 +185,10 @@ impl Block for HilbertFir {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
     fn delay(&self) -> f64 {
         self.fir.delay()
     }

@@ -87,6 +87,14 @@ impl Block for IqBalancer {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
+    fn delay(&self) -> f64 {
+        0.0
+    }
+
     fn reset(&mut self) {
         self.power = 0.0;
         self.weight = Complex64::default();

@@ -115,6 +115,14 @@ impl Block for Mixer {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
+    fn delay(&self) -> f64 {
+        0.0
+    }
+
     fn reset(&mut self) {
         self.block_phase = 0.0;
         self.position = 0;

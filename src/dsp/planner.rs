@@ -378,6 +378,10 @@ impl<T: Sample> Block for MultiStageDecimator<T> {
         input_len.div_ceil(self.total_factor)
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0 / self.total_factor as f64
+    }
+
     /// Each stage's delay converted to input samples of the cascade.
     fn delay(&self) -> f64 {
         let mut scale = 1.0;

@@ -150,6 +150,10 @@ impl<T: Sample> Block for RationalResampler<T> {
             .div_ceil(self.down)
     }
 
+    fn rate_ratio(&self) -> f64 {
+        self.up as f64 / self.down as f64
+    }
+
     /// (N − 1)/2 prototype samples at L·fs_in, i.e. (N − 1)/(2L) input samples.
     fn delay(&self) -> f64 {
         (self.prototype_len as f64 - 1.0) / 2.0 / self.up as f64

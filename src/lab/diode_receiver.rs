@@ -93,6 +93,10 @@ impl Block for DiodeReceiver {
         self.pieces_output_len(input_len)
     }
 
+    fn rate_ratio(&self) -> f64 {
+        self.audio_rate / self.input_rate
+    }
+
     fn delay(&self) -> f64 {
         let factor = self.input_rate / self.front.detection_rate();
         self.front.delay() + (self.diode.delay() + self.audio.delay()) * factor

@@ -273,6 +273,14 @@ impl<L: CarrierLoop> Block for CarrierAcquisition<L> {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
+    fn delay(&self) -> f64 {
+        0.0
+    }
+
     fn reset(&mut self) {
         self.carrier_loop.reset_loop();
         self.spectrum.reset();

@@ -207,6 +207,14 @@ impl Block for CostasLoop {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
+    fn delay(&self) -> f64 {
+        0.0
+    }
+
     fn reset(&mut self) {
         if let Ok(fresh) = CostasLoop::new(self.config) {
             *self = fresh;

@@ -95,6 +95,10 @@ impl Block for ComplexFir {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
     fn delay(&self) -> f64 {
         (self.reversed.len() as f64 - 1.0) / 2.0
     }

@@ -72,6 +72,10 @@ impl Block for IsbModulator {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
     fn delay(&self) -> f64 {
         self.upper.delay() as f64
     }

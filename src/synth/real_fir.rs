@@ -99,6 +99,10 @@ impl Block for RealFir {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
     fn delay(&self) -> f64 {
         (self.reversed.len() as f64 - 1.0) / 2.0
     }

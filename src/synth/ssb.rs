@@ -100,6 +100,10 @@ impl Block for SsbModulator {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
     fn delay(&self) -> f64 {
         self.analytic.delay() as f64
     }

@@ -161,6 +161,10 @@ impl Block for VsbModulator {
         input_len
     }
 
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
     fn delay(&self) -> f64 {
         (self.shaping.len() as f64 - 1.0) / 2.0
     }

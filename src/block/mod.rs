@@ -5,7 +5,21 @@
 //! scratch is built in the constructor, so `process` never allocates. A block's output never
 //! depends on how its input was split into chunks.
 
+pub mod check;
+
+/// Input samples a block or receiver works through in one internal step. Every internal
+/// buffer is sized from it, so one number sets the working-set size everywhere.
+pub const PIECE: usize = 8192;
+
 /// A streaming DSP block.
+///
+/// The contract, checked for every block by [`testing::check_block`]:
+/// - `process` consumes as much input as fits and returns `(consumed, produced)`; with an
+///   output of `max_output_len(input.len())` it consumes everything;
+/// - the output never depends on how the input was split into calls;
+/// - `rate_ratio` outputs come out per input on average, and the response to an input at time
+///   t appears `delay()` input samples later;
+/// - [`Block::flush`] at the end of a stream pushes out the tail still held in the filters.
 pub trait Block {
     /// Input sample type.
     type Input: Copy + Default;
@@ -20,13 +34,88 @@ pub trait Block {
     /// The largest number of outputs that `input_len` inputs can produce, from any state.
     fn max_output_len(&self, input_len: usize) -> usize;
 
-    /// Group delay of the block, in input samples.
-    fn delay(&self) -> f64 {
-        0.0
-    }
+    /// Outputs per input over a long run (1 for a filter, 1/M for a decimator by M, L/M for a
+    /// resampler, twice the audio/IQ rate ratio for interleaved stereo).
+    fn rate_ratio(&self) -> f64;
+
+    /// Group delay from input to output, in input samples.
+    fn delay(&self) -> f64;
 
     /// Returns the block to its freshly constructed state.
     fn reset(&mut self);
+
+    /// Inputs that [`Block::flush`] feeds: enough zeros to bring the last input's response
+    /// out through the delay.
+    fn flush_len(&self) -> usize {
+        self.delay().max(0.0).ceil() as usize
+    }
+
+    /// Ends the stream: feeds [`Block::flush_len`] zero inputs and writes what comes out, the
+    /// delayed tail of the real input. `output` needs `max_output_len(flush_len())` room.
+    /// Returns the outputs written; the block should be reset before it is used again.
+    fn flush(&mut self, output: &mut [Self::Output]) -> usize {
+        let zeros = [Self::Input::default(); 256];
+        let mut left = self.flush_len();
+        let mut produced = 0;
+        while left > 0 {
+            let n = left.min(zeros.len());
+            let (c, p) = self.process(&zeros[..n], &mut output[produced..]);
+            produced += p;
+            left -= c;
+            if c == 0 {
+                break;
+            }
+        }
+        produced
+    }
+}
+
+/// A block that maps each input sample to exactly one output sample: write `next` and get
+/// [`Block`] for free (rate 1, the slice loop, the output bound).
+pub trait SampleBlock {
+    /// Input sample type.
+    type In: Copy + Default;
+    /// Output sample type.
+    type Out: Copy + Default;
+
+    /// Processes one sample.
+    fn next(&mut self, x: Self::In) -> Self::Out;
+
+    /// Group delay in samples (0 for memoryless and loop blocks whose delay is not a filter's).
+    fn sample_delay(&self) -> f64;
+
+    /// Returns the block to its freshly constructed state.
+    fn reset_state(&mut self);
+}
+
+impl<S: SampleBlock> Block for S {
+    type Input = S::In;
+    type Output = S::Out;
+
+    #[inline]
+    fn process(&mut self, input: &[S::In], output: &mut [S::Out]) -> (usize, usize) {
+        let n = input.len().min(output.len());
+        for (y, &x) in output[..n].iter_mut().zip(&input[..n]) {
+            *y = self.next(x);
+        }
+        (n, n)
+    }
+
+    fn max_output_len(&self, input_len: usize) -> usize {
+        input_len
+    }
+
+    fn rate_ratio(&self) -> f64 {
+        1.0
+    }
+
+    fn delay(&self) -> f64 {
+        self.sample_delay()
+    }
+
+    fn reset(&mut self) {
+        self.reset_state();
+    }
 }
 
 /// Runs `block` over all of `input` and returns the output in a new vector.
@@ -141,9 +230,12 @@ impl<A: Block, B: Block<Input = A::Output>> Block for Chain<A, B> {
         pieces_bound(input_len, self.chunk, |n| self.piece_bound(n))
     }
 
+    fn rate_ratio(&self) -> f64 {
+        self.first.rate_ratio() * self.second.rate_ratio()
+    }
+
     fn delay(&self) -> f64 {
-        let ratio = self.first.max_output_len(1 << 20) as f64 / (1u64 << 20) as f64;
-        self.first.delay() + self.second.delay() / ratio.max(f64::MIN_POSITIVE)
+        self.first.delay() + self.second.delay() / self.first.rate_ratio()
     }
 
     fn reset(&mut self) {
