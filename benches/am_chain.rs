@@ -3,7 +3,7 @@
 //! Reports input samples per second.
 
 use amrx::block::Block;
-use amrx::demod::{AmConfig, AmReceiver};
+use amrx::demod::{AmReceiver, Mode, ReceiverConfig};
 use amrx::io::SampleFormat;
 use amrx::synth::{quantize_cu8, AmToneTransmitter, ComplexNoise};
 use amrx::Complex32;
@@ -25,7 +25,7 @@ fn cu8_recording() -> Vec<u8> {
 
 fn am_chain(c: &mut Criterion) {
     let bytes = cu8_recording();
-    let mut rx = AmReceiver::new(AmConfig::new(RATE, -300_000.0)).unwrap();
+    let mut rx = AmReceiver::new(Mode::Am, &ReceiverConfig::new(RATE, -300_000.0)).unwrap();
     let mut iq = vec![Complex32::default(); PIECE];
     let mut audio = vec![0.0f32; rx.max_output_len(PIECE)];
     let mut group = c.benchmark_group("am_chain");

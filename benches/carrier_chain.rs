@@ -3,7 +3,7 @@
 //! detection, AGC, DC removal, audio filter and resampling. Reports input samples per second.
 
 use amrx::block::Block;
-use amrx::demod::{DsbConfig, DsbReceiver, SamConfig, SamReceiver, Sideband};
+use amrx::demod::{DsbReceiver, Mode, ReceiverConfig, SamReceiver, Sideband};
 use amrx::io::SampleFormat;
 use amrx::synth::{quantize_cu8, AmToneTransmitter, ComplexNoise};
 use amrx::Complex32;
@@ -66,19 +66,17 @@ fn run<R: Block<Input = Complex32, Output = f32>>(
 
 fn carrier_chain(c: &mut Criterion) {
     let am = am_recording();
-    let sam = SamReceiver::new(SamConfig::new(RATE, OFFSET)).unwrap();
+    let sam = SamReceiver::new(Mode::Sam, &ReceiverConfig::new(RATE, OFFSET)).unwrap();
     run(c, "sam_cu8_2M4_to_48k", &am, sam);
-    let upper = SamConfig {
-        sideband: Some(Sideband::Upper),
-        ..SamConfig::new(RATE, OFFSET)
-    };
+    let mut upper = ReceiverConfig::new(RATE, OFFSET);
+    upper.options.sideband = Some(Sideband::Upper);
     run(
         c,
         "sam_upper_cu8_2M4_to_48k",
         &am,
-        SamReceiver::new(upper).unwrap(),
+        SamReceiver::new(Mode::Sam, &upper).unwrap(),
     );
-    let dsb = DsbReceiver::new(DsbConfig::new(RATE, OFFSET)).unwrap();
+    let dsb = DsbReceiver::new(Mode::Dsb, &ReceiverConfig::new(RATE, OFFSET)).unwrap();
     run(c, "dsb_cu8_2M4_to_48k", &dsb_recording(), dsb);
 }
 

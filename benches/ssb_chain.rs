@@ -3,7 +3,7 @@
 //! filter and resampling. Reports input samples per second.
 
 use amrx::block::Block;
-use amrx::demod::{Sideband, SsbConfig, SsbMethod, SsbReceiver};
+use amrx::demod::{Mode, ReceiverConfig, SsbMethod, SsbReceiver};
 use amrx::io::SampleFormat;
 use amrx::synth::{quantize_cu8, ComplexNoise};
 use amrx::Complex32;
@@ -37,9 +37,9 @@ fn ssb_chain(c: &mut Criterion) {
         ("phasing", SsbMethod::Phasing),
         ("weaver", SsbMethod::Weaver),
     ] {
-        let mut config = SsbConfig::new(RATE, DIAL, Sideband::Upper);
-        config.method = method;
-        let mut rx = SsbReceiver::new(config).unwrap();
+        let mut config = ReceiverConfig::new(RATE, DIAL);
+        config.options.ssb_method = method;
+        let mut rx = SsbReceiver::new(Mode::Usb, &config).unwrap();
         let mut iq = vec![Complex32::default(); PIECE];
         let mut audio = vec![0.0f32; rx.max_output_len(PIECE)];
         group.bench_function(format!("usb_{name}_cu8_2M4_to_48k"), |b| {

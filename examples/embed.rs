@@ -6,7 +6,7 @@
 //! ```
 
 use amrx::block::Block;
-use amrx::demod::{AmConfig, AmReceiver, Receiver};
+use amrx::demod::{AmReceiver, Mode, Receiver, ReceiverConfig};
 use amrx::measure::{estimate_tone_hz, sinad_db};
 use amrx::synth::{AmToneTransmitter, ComplexNoise};
 use amrx::Complex32;
@@ -19,7 +19,7 @@ fn main() -> Result<(), amrx::Error> {
     let mut station = AmToneTransmitter::new(0.3, 0.6, 800.0, OFFSET, RATE)?;
     let mut noise = ComplexNoise::new(1e-6, 1);
 
-    let mut receiver = AmReceiver::new(AmConfig::new(RATE, OFFSET))?;
+    let mut receiver = AmReceiver::new(Mode::Am, &ReceiverConfig::new(RATE, OFFSET))?;
     // Buffers are allocated once, sized for the largest burst; the loop allocates nothing.
     let largest_burst = 20_000;
     let mut burst = vec![Complex32::default(); largest_burst];

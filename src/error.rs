@@ -30,18 +30,13 @@ pub enum Error {
     /// A parameter outside the range the block or receiver can honour.
     #[error("invalid {name} {value}: {problem}")]
     InvalidParameter {
-        /// The parameter's name, as the user knows it (e.g. `--offset`).
+        /// The parameter's name in the library (e.g. `offset_hz`); the command line maps it
+        /// to its flag.
         name: &'static str,
         /// The value given, formatted.
         value: String,
         /// Why it cannot be used.
         problem: String,
-    },
-    /// A capability that is reserved but not built yet.
-    #[error("{what} is not yet available")]
-    NotYetAvailable {
-        /// What was asked for.
-        what: String,
     },
     /// A streaming stage stopped without an error of its own (e.g. it panicked).
     #[error("pipeline stage '{stage}' failed: {problem}")]

@@ -1,7 +1,7 @@
 //! `amrx`: the command-line receiver. Argument parsing and wiring only; the work is in the
 //! library.
 
-use amrx::demod::{LoopSettings, Mode, ReceiverOptions, Sideband, SsbMethod};
+use amrx::demod::{LoopSettings, Mode, ReceiverOptions, Sideband, SsbMethod, MODES};
 use amrx::dsp::AgcSettings;
 use amrx::io::{InputOptions, SampleFormat};
 use amrx::lab::{self, Axis, SweepSpec};
@@ -71,9 +71,9 @@ struct InputArgs {
 struct DemodArgs {
     /// The IQ input (NAME.sigmf-meta or NAME.sigmf-data, an IQ WAV, a raw file, or -).
     input: PathBuf,
-    /// Receive mode.
-    #[arg(long, value_enum)]
-    mode: ModeArg,
+    /// Receive mode (the library's mode table: am, sam, dsb, usb, lsb, isb, vsb).
+    #[arg(long, value_parser = parse_mode)]
+    mode: Mode,
     /// Carrier frequency relative to the recording centre, in Hz.
     #[arg(long, allow_negative_numbers = true, conflicts_with = "carrier")]
     offset: Option<f64>,
@@ -179,17 +179,6 @@ enum AxisArg {
 }
 
 #[derive(ValueEnum, Clone, Copy, Debug)]
-enum ModeArg {
-    Am,
-    Sam,
-    Dsb,
-    Usb,
-    Lsb,
-    Isb,
-    Vsb,
-}
-
-#[derive(ValueEnum, Clone, Copy, Debug)]
 enum SidebandArg {
     Upper,
     Lower,
@@ -255,17 +244,45 @@ impl InputArgs {
     }
 }
 
-impl ModeArg {
-    fn mode(self) -> Mode {
-        match self {
-            ModeArg::Am => Mode::Am,
-            ModeArg::Sam => Mode::Sam,
-            ModeArg::Dsb => Mode::Dsb,
-            ModeArg::Usb => Mode::Usb,
-            ModeArg::Lsb => Mode::Lsb,
-            ModeArg::Isb => Mode::Isb,
-            ModeArg::Vsb => Mode::Vsb,
-        }
+/// A mode from the library's table, by name.
+fn parse_mode(name: &str) -> Result<Mode, String> {
+    name.parse().map_err(|_| {
+        let names: Vec<&str> = MODES.iter().map(|m| m.name).collect();
+        format!("unknown mode '{name}' ({})", names.join(", "))
+    })
+}
+
+/// The command-line flag for a library parameter name.
+fn flag_for(parameter: &str) -> Option<&'static str> {
+    Some(match parameter {
+        "offset_hz" => "--offset",
+        "input_rate" | "sample_rate" => "--rate",
+        "bandwidth_hz" => "--bandwidth",
+        "audio_rate" => "--audio-rate",
+        "sideband" => "--sideband",
+        "carrier_lock" => "--carrier-lock",
+        "loop_bandwidth_hz" => "--loop-bandwidth",
+        "loop_damping" => "--loop-damping",
+        "agc.gain_db" => "--gain",
+        "agc.attack_s" | "agc.decay_s" | "agc.hang_s" | "agc.target" => "--agc",
+        "detectors" => "--detectors",
+        "mode" => "--mode",
+        _ => return None,
+    })
+}
+
+/// The library's error in the command line's words: parameters become the flags that set them.
+fn in_cli_words(error: Error) -> String {
+    match error {
+        Error::InvalidParameter {
+            name,
+            value,
+            problem,
+        } => match flag_for(name) {
+            Some(flag) => format!("invalid {flag} {value}: {problem}"),
+            None => format!("invalid {name} {value}: {problem}"),
+        },
+        other => other.to_string(),
     }
 }
 
@@ -273,18 +290,12 @@ impl ModeArg {
 fn with_input(input: &Path, error: Error) -> String {
     match error {
         Error::Io { .. } | Error::InvalidFile { .. } => error.to_string(),
-        other => format!("{}: {other}", input.display()),
+        other => format!("{}: {}", input.display(), in_cli_words(other)),
     }
 }
 
 fn demod(args: DemodArgs) -> Result<(), String> {
-    let mode = args.mode.mode();
-    if args.sideband.is_some() && mode != Mode::Sam {
-        return Err(format!(
-            "{}: --sideband applies to --mode sam only, not {mode}",
-            args.input.display()
-        ));
-    }
+    let mode = args.mode;
     let tuning = match (args.offset, args.carrier) {
         (Some(offset), _) => Tuning::Offset(offset),
         (None, Some(carrier)) => Tuning::Carrier(carrier),
@@ -346,6 +357,7 @@ fn receiver_options(args: &DemodArgs) -> ReceiverOptions {
             damping: args.loop_damping,
         },
         agc,
+        vestige_hz: None,
         iq_balance: args.iq_balance,
     }
 }
@@ -407,12 +419,12 @@ fn synth(scene: &Path, out: &Path, datatype: Option<SampleFormat>) -> Result<(),
 }
 
 fn sweep(args: &SweepArgs) -> Result<(), String> {
-    let detectors = lab::parse_detectors(&args.detectors).map_err(|e| e.to_string())?;
+    let detectors = lab::parse_detectors(&args.detectors).map_err(in_cli_words)?;
     let axis = match args.axis {
         AxisArg::Snr => Axis::Snr,
         AxisArg::Cnr => Axis::Cnr,
     };
-    let points = SweepSpec::range_db(args.from, args.to, args.step).map_err(|e| e.to_string())?;
+    let points = SweepSpec::range_db(args.from, args.to, args.step).map_err(in_cli_words)?;
     let mut spec = SweepSpec::new(detectors, axis, points);
     spec.trials = args.trials;
     spec.seed = args.seed;
@@ -424,7 +436,7 @@ fn sweep(args: &SweepArgs) -> Result<(), String> {
     bar.set_length(spec.total_trials() as u64);
     let result = lab::run_sweep(&spec, |p| bar.set_position(p.done as u64));
     bar.finish_and_clear();
-    let result = result.map_err(|e| e.to_string())?;
+    let result = result.map_err(in_cli_words)?;
     lab::write_csv(&result, &args.csv).map_err(|e| e.to_string())?;
     lab::write_png(&result, &args.png).map_err(|e| e.to_string())?;
     for line in lab::summary_lines(&result) {

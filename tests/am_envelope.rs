@@ -3,7 +3,7 @@
 mod common;
 
 use amrx::block::{process_in_chunks, process_to_vec};
-use amrx::demod::{AmConfig, AmReceiver, Receiver};
+use amrx::demod::{AmReceiver, Mode, Receiver, ReceiverConfig};
 use amrx::io::SampleFormat;
 use amrx::measure::{estimate_tone_hz, sinad_db};
 use amrx::synth::{quantize_cu8, IqImpairment};
@@ -18,7 +18,7 @@ fn settled(audio: &[f32], rate: f64) -> &[f32] {
 }
 
 fn receive(samples: &[Complex32], offset: f64) -> (Vec<f32>, AmReceiver) {
-    let mut rx = AmReceiver::new(AmConfig::new(RATE, offset)).unwrap();
+    let mut rx = AmReceiver::new(Mode::Am, &ReceiverConfig::new(RATE, offset)).unwrap();
     let audio = process_to_vec(&mut rx, samples);
     (audio, rx)
 }
@@ -162,7 +162,7 @@ fn receiver_output_is_chunk_invariant() {
         vec![10_007, 3, 65_536],
         vec![100_000],
     ] {
-        let mut rx = AmReceiver::new(AmConfig::new(RATE, -75_000.0)).unwrap();
+        let mut rx = AmReceiver::new(Mode::Am, &ReceiverConfig::new(RATE, -75_000.0)).unwrap();
         let pieces = process_in_chunks(&mut rx, &samples, &sizes);
         assert_eq!(pieces.len(), whole.len(), "sizes {sizes:?}");
         let worst = pieces
@@ -183,9 +183,9 @@ fn other_rates_and_audio_rates() {
         (2_400_000.0, 44_100.0),
     ] {
         let samples = tone_am(rate, 30_000.0, 0.5, 1000.0, 0.8, 1e-7);
-        let mut config = AmConfig::new(rate, 30_000.0);
-        config.audio_rate = audio_rate;
-        let mut rx = AmReceiver::new(config).unwrap();
+        let mut config = ReceiverConfig::new(rate, 30_000.0);
+        config.options.audio_rate = audio_rate;
+        let mut rx = AmReceiver::new(Mode::Am, &config).unwrap();
         let audio = process_to_vec(&mut rx, &samples);
         let expected = samples.len() as f64 * audio_rate / rate;
         assert!(
@@ -210,9 +210,9 @@ fn carrier_agc_levels_the_audio() {
             amrx::synth::AmToneTransmitter::new(carrier, 0.5, 1000.0, 50_000.0, 240_000.0).unwrap();
         let mut iq = vec![Complex32::default(); 240_000 * 3];
         tx.fill(&mut iq);
-        let mut config = AmConfig::new(240_000.0, 50_000.0);
-        config.agc = agc;
-        let audio = process_to_vec(&mut AmReceiver::new(config).unwrap(), &iq);
+        let mut config = ReceiverConfig::new(240_000.0, 50_000.0);
+        config.options.agc = Some(agc);
+        let audio = process_to_vec(&mut AmReceiver::new(Mode::Am, &config).unwrap(), &iq);
         let tail = &audio[audio.len() / 2..];
         10.0 * (tail.iter().map(|x| f64::from(*x).powi(2)).sum::<f64>() / tail.len() as f64).log10()
     };

@@ -2,7 +2,7 @@
 //! coherent-detection noise performance against the textbook, noise alone, chunk invariance.
 
 use amrx::block::{process_in_chunks, process_to_vec};
-use amrx::demod::{build_receiver, DsbConfig, DsbReceiver, Mode, Receiver, ReceiverConfig};
+use amrx::demod::{build_receiver, DsbReceiver, Mode, Receiver, ReceiverConfig};
 use amrx::dsp::AgcSettings;
 use amrx::measure::{sinad_db, snr_in_band_db};
 use amrx::synth::ComplexNoise;
@@ -37,15 +37,18 @@ fn dsb(
     x
 }
 
-fn config() -> DsbConfig {
-    DsbConfig {
-        agc: AgcSettings::OFF,
-        ..DsbConfig::new(RATE, OFFSET)
-    }
+fn config() -> ReceiverConfig {
+    with_agc(AgcSettings::OFF)
 }
 
-fn receive(config: DsbConfig, x: &[Complex32]) -> (Vec<f32>, DsbReceiver) {
-    let mut rx = DsbReceiver::new(config).unwrap();
+fn with_agc(agc: AgcSettings) -> ReceiverConfig {
+    let mut c = ReceiverConfig::new(RATE, OFFSET);
+    c.options.agc = Some(agc);
+    c
+}
+
+fn receive(config: ReceiverConfig, x: &[Complex32]) -> (Vec<f32>, DsbReceiver) {
+    let mut rx = DsbReceiver::new(Mode::Dsb, &config).unwrap();
     let audio = process_to_vec(&mut rx, x);
     (audio, rx)
 }
@@ -60,14 +63,14 @@ fn after(audio: &[f32], seconds: f64) -> &[f32] {
 #[test]
 fn carrier_35_hz_off_is_recovered() {
     let x = dsb(OFFSET + 35.0, 0.4, 0.3, 2.0, 1e-7, 1);
-    for agc in [AgcSettings::OFF, DsbConfig::DEFAULT_AGC] {
-        let (audio, rx) = receive(DsbConfig { agc, ..config() }, &x);
+    for agc in [AgcSettings::OFF, Mode::Dsb.spec().agc] {
+        let (audio, rx) = receive(with_agc(agc), &x);
         let m = rx.measurements();
         let sinad = sinad_db(after(&audio, 0.8), AUDIO, TONE).unwrap();
         let carrier = m.carrier_offset_hz.unwrap();
         eprintln!(
             "agc {agc:?}: SINAD {sinad:.1} dB, carrier {carrier:.3} Hz (coarse {:?}), locked {:?}",
-            rx.acquisition().acquired_hz(),
+            rx.detector().acquisition().acquired_hz(),
             m.locked
         );
         assert_eq!(m.locked, Some(true));
@@ -154,7 +157,7 @@ fn half_turn_ambiguity_only_flips_the_audio() {
 /// between noise seeds (seen: −0.11 to +0.10 dB); Costas jitter here costs < 0.01 dB.
 #[test]
 fn coherent_dsb_figure_of_merit_is_one() {
-    let w = DsbConfig::DEFAULT_BANDWIDTH_HZ;
+    let w = Mode::Dsb.spec().bandwidth_hz;
     for (snr_c_db, seed) in [(20.0, 4), (25.0, 5), (30.0, 6)] {
         let amplitude: f64 = 0.3;
         let n0 = amplitude * amplitude / 2.0 / (w * 10f64.powf(snr_c_db / 10.0));
@@ -196,7 +199,7 @@ fn noise_alone_reports_no_lock() {
 #[test]
 fn chunk_invariant() {
     let x = dsb(OFFSET - 60.0, 2.0, 0.3, 0.8, 1e-5, 7);
-    let make = || DsbReceiver::new(DsbConfig::new(RATE, OFFSET)).unwrap();
+    let make = || DsbReceiver::new(Mode::Dsb, &ReceiverConfig::new(RATE, OFFSET)).unwrap();
     let whole = process_to_vec(&mut make(), &x);
     let mut rng = StdRng::seed_from_u64(8);
     let random: Vec<usize> = (0..40).map(|_| rng.random_range(1..20_000)).collect();

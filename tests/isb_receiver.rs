@@ -1,7 +1,7 @@
 //! The ISB receiver end to end: stereo layout, crosstalk between the sidebands, chunking.
 
 use amrx::block::{process_in_chunks, process_to_vec, Block};
-use amrx::demod::{build_receiver, IsbConfig, IsbReceiver, Mode, ReceiverConfig, SsbMethod};
+use amrx::demod::{build_receiver, IsbReceiver, Mode, ReceiverConfig, SsbMethod};
 use amrx::dsp::AgcSettings;
 use amrx::measure::fit_tone;
 use amrx::Complex32;
@@ -25,10 +25,10 @@ fn tones(list: &[(f32, f64)], seconds: f64) -> Vec<Complex32> {
 }
 
 fn receiver(method: SsbMethod) -> IsbReceiver {
-    let mut c = IsbConfig::new(FS, CARRIER);
-    c.method = method;
-    c.agc = AgcSettings::OFF;
-    IsbReceiver::new(c).unwrap()
+    let mut c = ReceiverConfig::new(FS, CARRIER);
+    c.options.ssb_method = method;
+    c.options.agc = Some(AgcSettings::OFF);
+    IsbReceiver::new(Mode::Isb, &c).unwrap()
 }
 
 /// (left, right) amplitudes of the tone at `f`, after 0.5 s of settling.
@@ -81,7 +81,7 @@ fn two_programmes_are_separated() {
 fn stereo_layout_and_chunk_invariance() {
     let rx = build_receiver(Mode::Isb, &ReceiverConfig::new(FS, CARRIER)).unwrap();
     assert_eq!(rx.audio_channels(), 2);
-    assert_eq!(rx.bandwidth_hz(), IsbConfig::DEFAULT_BANDWIDTH_HZ);
+    assert_eq!(rx.bandwidth_hz(), Mode::Isb.spec().bandwidth_hz);
     let x = tones(&[(0.3, -500.0), (0.3, 1200.0)], 0.6);
     for method in [SsbMethod::Phasing, SsbMethod::Weaver] {
         let mut whole_rx = receiver(method);

@@ -7,19 +7,6 @@
 
 use amrx::demod::Mode;
 use amrx::lab::{run_sweep, theory, Axis, Detector, SweepSpec};
-use amrx::Error;
-
-/// True when `detector`'s receiver is built; prints why the test is skipped otherwise.
-fn available(detector: &Detector) -> bool {
-    match detector.build(&amrx::lab::TrialSettings::default().receiver_config()) {
-        Ok(_) => true,
-        Err(Error::NotYetAvailable { what }) => {
-            eprintln!("SKIPPED: {what} is not yet available; this check runs once it is built");
-            false
-        }
-        Err(e) => panic!("{detector}: {e}"),
-    }
-}
 
 /// Sweeps `detector` at μ over channel SNR 20, 25, 30 dB and checks each point against
 /// theory within `tolerance_db`; returns the largest deviation.
@@ -75,10 +62,8 @@ fn diode_detector_meets_the_envelope_theory() {
 fn synchronous_am_meets_mu2_over_2_plus_mu2() {
     // Coherent detection of full-carrier AM: FoM μ²/(2+μ²) (Haykin ch. 2).
     let sam = Detector::Receiver(Mode::Sam);
-    if available(&sam) {
-        for mu in [0.3, 0.5, 0.8] {
-            check_above_threshold(sam, mu, 0.5);
-        }
+    for mu in [0.3, 0.5, 0.8] {
+        check_above_threshold(sam, mu, 0.5);
     }
 }
 
@@ -86,9 +71,7 @@ fn synchronous_am_meets_mu2_over_2_plus_mu2() {
 fn dsb_sc_meets_unity_figure_of_merit() {
     // Coherent DSB-SC: FoM = 1 (Haykin ch. 2, noise in DSB-SC receivers).
     let dsb = Detector::Receiver(Mode::Dsb);
-    if available(&dsb) {
-        check_above_threshold(dsb, 0.5, 0.5);
-    }
+    check_above_threshold(dsb, 0.5, 0.5);
 }
 
 #[test]
@@ -96,8 +79,6 @@ fn ssb_meets_unity_figure_of_merit() {
     // SSB: FoM = 1 (Haykin ch. 2, noise in SSB receivers).
     for mode in [Mode::Usb, Mode::Lsb] {
         let ssb = Detector::Receiver(mode);
-        if available(&ssb) {
-            check_above_threshold(ssb, 0.5, 0.5);
-        }
+        check_above_threshold(ssb, 0.5, 0.5);
     }
 }

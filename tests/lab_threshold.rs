@@ -4,18 +4,6 @@
 
 use amrx::demod::Mode;
 use amrx::lab::{run_sweep, theory, Axis, Curve, Detector, SweepResult, SweepSpec};
-use amrx::Error;
-
-fn available(detector: &Detector) -> bool {
-    match detector.build(&amrx::lab::TrialSettings::default().receiver_config()) {
-        Ok(_) => true,
-        Err(Error::NotYetAvailable { what }) => {
-            eprintln!("SKIPPED: {what} is not yet available; this check runs once it is built");
-            false
-        }
-        Err(e) => panic!("{detector}: {e}"),
-    }
-}
 
 /// Channel SNR −4 … 14 dB in 1 dB steps at μ = 0.5, 16 trials of 0.5 s per point.
 fn threshold_sweep(detectors: Vec<Detector>) -> SweepResult {
@@ -100,11 +88,7 @@ fn coherent_detection_has_no_threshold_where_the_envelope_has() {
     let coherent: Vec<Detector> = [Mode::Sam, Mode::Dsb]
         .into_iter()
         .map(Detector::Receiver)
-        .filter(available)
         .collect();
-    if coherent.is_empty() {
-        return;
-    }
     let mut detectors = vec![Detector::Receiver(Mode::Am)];
     detectors.extend(coherent);
     let mut spec = SweepSpec::new(detectors, Axis::Snr, vec![-3.0, 0.0]);
@@ -160,9 +144,6 @@ fn coherent_detection_falls_one_db_per_db_below_the_envelope_threshold() {
     // as long as the carrier loop holds lock.
     for mode in [Mode::Sam, Mode::Dsb] {
         let detector = Detector::Receiver(mode);
-        if !available(&detector) {
-            continue;
-        }
         let result = square_law_sweep(vec![detector]);
         let curve = &result.curves[0];
         print_curve(curve);

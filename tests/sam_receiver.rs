@@ -2,9 +2,7 @@
 //! textbook, one-sideband reception against an interferer, noise alone, chunk invariance.
 
 use amrx::block::{process_in_chunks, process_to_vec};
-use amrx::demod::{
-    build_receiver, Mode, Receiver, ReceiverConfig, SamConfig, SamReceiver, Sideband,
-};
+use amrx::demod::{build_receiver, Mode, Receiver, ReceiverConfig, SamReceiver, Sideband};
 use amrx::dsp::AgcSettings;
 use amrx::measure::{fit_tone, sinad_db, snr_in_band_db};
 use amrx::synth::{AmToneTransmitter, ComplexNoise};
@@ -28,11 +26,16 @@ fn am(carrier_hz: f64, mu: f64, tone: f64, seconds: f64, noise: f64, seed: u64) 
     x
 }
 
-fn config() -> SamConfig {
-    SamConfig {
-        agc: AgcSettings::OFF,
-        ..SamConfig::new(RATE, OFFSET)
-    }
+fn config() -> ReceiverConfig {
+    let mut c = ReceiverConfig::new(RATE, OFFSET);
+    c.options.agc = Some(AgcSettings::OFF);
+    c
+}
+
+fn with_sideband(sideband: Option<Sideband>) -> ReceiverConfig {
+    let mut c = config();
+    c.options.sideband = sideband;
+    c
 }
 
 /// Audio after the first `seconds` (acquisition, lock, filter and DC-blocker settling).
@@ -45,7 +48,7 @@ fn after(audio: &[f32], seconds: f64) -> &[f32] {
 #[test]
 fn carrier_200_hz_off_is_acquired_and_the_tone_recovered() {
     let short = am(OFFSET + 200.0, 0.5, 1000.0, 0.5, 1e-4, 1);
-    let mut rx = SamReceiver::new(config()).unwrap();
+    let mut rx = SamReceiver::new(Mode::Sam, &config()).unwrap();
     process_to_vec(&mut rx, &short);
     let m = rx.measurements();
     let carrier = m.carrier_offset_hz.unwrap();
@@ -62,7 +65,7 @@ fn carrier_200_hz_off_is_acquired_and_the_tone_recovered() {
 
     // Quieter for the tone: SNR_C = 0.0703/(N0·W) = 61.3 dB, so SNR_O ≈ 51.8 dB in 5 kHz.
     let long = am(OFFSET + 200.0, 0.5, 1000.0, 2.0, 1e-6, 1);
-    let mut rx = SamReceiver::new(config()).unwrap();
+    let mut rx = SamReceiver::new(Mode::Sam, &config()).unwrap();
     let audio = process_to_vec(&mut rx, &long);
     let sinad = sinad_db(after(&audio, 0.8), AUDIO, 1000.0).unwrap();
     let m = rx.measurements();
@@ -93,12 +96,12 @@ fn carrier_200_hz_off_is_acquired_and_the_tone_recovered() {
 /// band from 5 s has a spread of about 0.05 dB; loop jitter at this CNR costs < 0.01 dB.
 #[test]
 fn coherent_am_figure_of_merit_matches_theory() {
-    let w = SamConfig::DEFAULT_BANDWIDTH_HZ;
+    let w = Mode::Sam.spec().bandwidth_hz;
     for (mu, snr_c_db, seed) in [(0.3, 25.0, 11), (0.8, 25.0, 12), (1.0, 30.0, 13)] {
         let mean_power = CARRIER * CARRIER * (1.0 + mu * mu / 2.0);
         let n0 = mean_power / (w * 10f64.powf(snr_c_db / 10.0));
         let x = am(OFFSET, mu, 1000.0, 5.0, n0 * RATE, seed);
-        let mut rx = SamReceiver::new(config()).unwrap();
+        let mut rx = SamReceiver::new(Mode::Sam, &config()).unwrap();
         let audio = process_to_vec(&mut rx, &x);
         assert_eq!(rx.measurements().locked, Some(true));
         let snr_o = snr_in_band_db(after(&audio, 0.8), AUDIO, 1000.0, w).unwrap();
@@ -135,16 +138,8 @@ fn one_sideband_rejects_a_neighbour_on_the_other_side() {
             *s += Complex32::from_polar(amplitude as f32, phase as f32);
         }
         let levels = |sideband: Option<Sideband>| {
-            let mut rx = SamReceiver::new(SamConfig {
-                sideband,
-                loop_bandwidth_hz: if sideband.is_some() {
-                    SamConfig::DEFAULT_SIDEBAND_LOOP_BANDWIDTH_HZ
-                } else {
-                    SamConfig::DEFAULT_LOOP_BANDWIDTH_HZ
-                },
-                ..config()
-            })
-            .unwrap();
+            // Each choice with its own default loop (narrower with one sideband).
+            let mut rx = SamReceiver::new(Mode::Sam, &with_sideband(sideband)).unwrap();
             let audio = process_to_vec(&mut rx, &x);
             assert_eq!(rx.measurements().locked, Some(true));
             let audio = after(&audio, 0.8);
@@ -174,7 +169,7 @@ fn one_sideband_rejects_a_neighbour_on_the_other_side() {
 fn noise_alone_reports_no_lock() {
     let mut x = vec![Complex32::default(); (1.5 * RATE) as usize];
     ComplexNoise::new(0.01, 31).add_to(&mut x);
-    let mut rx = SamReceiver::new(config()).unwrap();
+    let mut rx = SamReceiver::new(Mode::Sam, &config()).unwrap();
     let audio = process_to_vec(&mut rx, &x);
     let m = rx.measurements();
     assert_eq!(m.locked, Some(false));
@@ -205,7 +200,7 @@ fn built_from_the_shared_options() {
     assert!(build_receiver(Mode::Sam, &config).is_ok());
     config.options.loop_settings.bandwidth_hz = Some(-3.0);
     match build_receiver(Mode::Sam, &config) {
-        Err(Error::InvalidParameter { name, .. }) => assert_eq!(name, "--loop-bandwidth"),
+        Err(Error::InvalidParameter { name, .. }) => assert_eq!(name, "loop_bandwidth_hz"),
         Err(e) => panic!("unexpected error {e}"),
         Ok(_) => panic!("negative loop bandwidth accepted"),
     }
@@ -221,13 +216,7 @@ fn chunk_invariant() {
     let x = am(OFFSET - 150.0, 0.6, 700.0, 0.8, 1e-4, 41);
     let mut rng = StdRng::seed_from_u64(5);
     for sideband in [None, Some(Sideband::Upper)] {
-        let make = || {
-            SamReceiver::new(SamConfig {
-                sideband,
-                ..config()
-            })
-            .unwrap()
-        };
+        let make = || SamReceiver::new(Mode::Sam, &with_sideband(sideband)).unwrap();
         let whole = process_to_vec(&mut make(), &x);
         let random: Vec<usize> = (0..40).map(|_| rng.random_range(1..20_000)).collect();
         for sizes in [vec![1usize, 7, 1024], vec![8191, 8193], random] {
@@ -242,16 +231,20 @@ fn chunk_invariant() {
 
 #[test]
 fn one_sideband_defaults_to_the_narrower_loop() {
-    let mut config = amrx::demod::ReceiverConfig::new(RATE, OFFSET);
+    let mut config = ReceiverConfig::new(RATE, OFFSET);
+    let loop_of = |c: &ReceiverConfig| {
+        let rx = SamReceiver::new(Mode::Sam, c).unwrap();
+        rx.detector().carrier_loop().config().loop_bandwidth_hz
+    };
     assert_eq!(
-        SamConfig::from_options(&config).loop_bandwidth_hz,
-        SamConfig::DEFAULT_LOOP_BANDWIDTH_HZ
+        loop_of(&config),
+        amrx::demod::sam::DEFAULT_LOOP_BANDWIDTH_HZ
     );
     config.options.sideband = Some(Sideband::Lower);
     assert_eq!(
-        SamConfig::from_options(&config).loop_bandwidth_hz,
-        SamConfig::DEFAULT_SIDEBAND_LOOP_BANDWIDTH_HZ
+        loop_of(&config),
+        amrx::demod::sam::DEFAULT_SIDEBAND_LOOP_BANDWIDTH_HZ
     );
     config.options.loop_settings.bandwidth_hz = Some(25.0);
-    assert_eq!(SamConfig::from_options(&config).loop_bandwidth_hz, 25.0);
+    assert_eq!(loop_of(&config), 25.0);
 }

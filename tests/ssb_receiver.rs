@@ -2,7 +2,7 @@
 //! the SSB figure of merit, J3E/R3E/H3E, and carrier lock on a mistuned dial.
 
 use amrx::block::process_to_vec;
-use amrx::demod::{Receiver, Sideband, SsbConfig, SsbMethod, SsbReceiver};
+use amrx::demod::{Mode, Receiver, ReceiverConfig, Sideband, SsbMethod, SsbReceiver};
 use amrx::dsp::AgcSettings;
 use amrx::measure::{estimate_tone_hz, fit_tone, sinad_db, snr_in_band_db};
 use amrx::synth::ComplexNoise;
@@ -32,11 +32,18 @@ fn ssb_signal(carrier_hz: f64, carrier: f32, tones: &[(f32, f64)], seconds: f64)
         .collect()
 }
 
+fn mode_of(sideband: Sideband) -> Mode {
+    match sideband {
+        Sideband::Upper => Mode::Usb,
+        Sideband::Lower => Mode::Lsb,
+    }
+}
+
 fn receiver(sideband: Sideband, method: SsbMethod, agc: AgcSettings) -> SsbReceiver {
-    let mut c = SsbConfig::new(FS, DIAL, sideband);
-    c.method = method;
-    c.agc = agc;
-    SsbReceiver::new(c).unwrap()
+    let mut c = ReceiverConfig::new(FS, DIAL);
+    c.options.ssb_method = method;
+    c.options.agc = Some(agc);
+    SsbReceiver::new(mode_of(sideband), &c).unwrap()
 }
 
 fn settled(audio: &[f32]) -> &[f32] {
@@ -92,7 +99,7 @@ fn opposite_sideband_rejection_at_least_50_db_for_both_methods() {
 /// moves the in-band noise by at most 100/2700 (0.16 dB).
 #[test]
 fn figure_of_merit_is_one() {
-    let w = SsbConfig::DEFAULT_BANDWIDTH_HZ;
+    let w = Mode::Usb.spec().bandwidth_hz;
     let snr_db = 30.0;
     let a = 0.5f32;
     let n0 = f64::from(a * a) / (w * 10f64.powf(snr_db / 10.0));
@@ -115,7 +122,7 @@ fn figure_of_merit_is_one() {
 /// `measure::sinad_db`).
 #[test]
 fn j3e_r3e_h3e_give_sinad_above_30_db() {
-    let w = SsbConfig::DEFAULT_BANDWIDTH_HZ;
+    let w = Mode::Usb.spec().bandwidth_hz;
     let n0 = 0.25 / (w * 1e5);
     for method in [SsbMethod::Phasing, SsbMethod::Weaver] {
         for (name, carrier) in [("J3E", 0.0f32), ("R3E", 0.5 * 0.158_489), ("H3E", 0.5)] {
@@ -155,10 +162,10 @@ fn carrier_lock_corrects_a_40_hz_dial_error() {
     };
     for method in [SsbMethod::Phasing, SsbMethod::Weaver] {
         for lock in [false, true] {
-            let mut c = SsbConfig::new(FS, DIAL, Sideband::Upper);
-            c.method = method;
-            c.carrier_lock = lock;
-            let mut rx = SsbReceiver::new(c).unwrap();
+            let mut c = ReceiverConfig::new(FS, DIAL);
+            c.options.ssb_method = method;
+            c.options.carrier_lock = lock;
+            let mut rx = SsbReceiver::new(Mode::Usb, &c).unwrap();
             let audio = process_to_vec(&mut rx, &x);
             let last = &audio[audio.len() - 2 * AUDIO as usize..];
             let f = estimate_tone_hz(last, AUDIO).unwrap();
@@ -184,14 +191,14 @@ fn carrier_lock_corrects_a_40_hz_dial_error() {
 /// the clean, uncorrected sideband.
 #[test]
 fn carrier_lock_without_a_carrier_reports_no_lock() {
-    let w = SsbConfig::DEFAULT_BANDWIDTH_HZ;
+    let w = Mode::Usb.spec().bandwidth_hz;
     for snr_db in [50.0, 20.0] {
         let mut x = ssb_signal(DIAL, 0.0, &[(0.5, 1000.0)], 3.0);
         let n0 = 0.25 / (w * 10f64.powf(snr_db / 10.0));
         ComplexNoise::new(n0 * FS, 5).add_to(&mut x);
-        let mut c = SsbConfig::new(FS, DIAL, Sideband::Upper);
-        c.carrier_lock = true;
-        let mut rx = SsbReceiver::new(c).unwrap();
+        let mut c = ReceiverConfig::new(FS, DIAL);
+        c.options.carrier_lock = true;
+        let mut rx = SsbReceiver::new(Mode::Usb, &c).unwrap();
         let audio = process_to_vec(&mut rx, &x);
         let m = rx.measurements();
         println!("SNR {snr_db} dB: {m:?}");

@@ -6,7 +6,7 @@
 //! H(f − f_c) + H(f + f_c) constant over the message band).
 
 use amrx::block::{process_in_chunks, process_to_vec};
-use amrx::demod::{build_receiver, Mode, Receiver, ReceiverConfig, VsbConfig, VsbReceiver};
+use amrx::demod::{build_receiver, Mode, Receiver, ReceiverConfig, VsbReceiver};
 use amrx::dsp::{design_lowpass, AgcSettings, LowpassSpec};
 use amrx::measure::fit_tone;
 use amrx::Complex32;
@@ -16,8 +16,9 @@ use std::f64::consts::TAU;
 const FS: f64 = 96_000.0;
 const AUDIO: f64 = 48_000.0;
 const CARRIER: f64 = 20_000.0;
-const W: f64 = VsbConfig::DEFAULT_BANDWIDTH_HZ;
-const FV: f64 = VsbConfig::DEFAULT_VESTIGE_HZ;
+/// The vsb mode's default bandwidth (the receiver is checked to use it below).
+const W: f64 = 4000.0;
+const FV: f64 = amrx::demod::vsb::DEFAULT_VESTIGE_HZ;
 
 /// The transmitter's vestigial filter: flat over [−f_v, W] (a low-pass of half-width
 /// (W + f_v)/2 moved up by (W − f_v)/2), stopband 400 Hz beyond each edge, 60 dB.
@@ -58,9 +59,9 @@ fn vsb_signal(m: f64, fm: f64, seconds: f64, carrier_shift_hz: f64) -> Vec<Compl
 }
 
 fn receiver() -> VsbReceiver {
-    let mut c = VsbConfig::new(FS, CARRIER);
-    c.agc = AgcSettings::OFF;
-    VsbReceiver::new(c).unwrap()
+    let mut c = ReceiverConfig::new(FS, CARRIER);
+    c.options.agc = Some(AgcSettings::OFF);
+    VsbReceiver::new(Mode::Vsb, &c).unwrap()
 }
 
 fn amplitude(audio: &[f32], f: f64) -> f64 {

@@ -171,7 +171,7 @@ where
 {
     let mut block = (check.make)();
     let mut out = process_to_vec(&mut block, check.input);
-    let mut tail = vec![B::Output::default(); block.max_output_len(block.flush_len()) + 1];
+    let mut tail = vec![B::Output::default(); block.flush_output_len()];
     let n = block.flush(&mut tail);
     out.extend_from_slice(&tail[..n]);
 

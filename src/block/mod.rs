@@ -50,15 +50,20 @@ pub trait Block {
         self.delay().max(0.0).ceil() as usize
     }
 
+    /// Room [`Block::flush`] needs in its output.
+    fn flush_output_len(&self) -> usize {
+        pieces_bound(self.flush_len(), FLUSH_PIECE, |n| self.max_output_len(n))
+    }
+
     /// Ends the stream: feeds [`Block::flush_len`] zero inputs and writes what comes out, the
-    /// delayed tail of the real input. `output` needs `max_output_len(flush_len())` room.
+    /// delayed tail of the real input. `output` needs [`Block::flush_output_len`] room.
     /// Returns the outputs written; the block should be reset before it is used again.
     fn flush(&mut self, output: &mut [Self::Output]) -> usize {
-        let zeros = [Self::Input::default(); 256];
+        let zeros = [Self::Input::default(); FLUSH_PIECE];
         let mut left = self.flush_len();
         let mut produced = 0;
         while left > 0 {
-            let n = left.min(zeros.len());
+            let n = left.min(FLUSH_PIECE);
             let (c, p) = self.process(&zeros[..n], &mut output[produced..]);
             produced += p;
             left -= c;
@@ -69,6 +74,9 @@ pub trait Block {
         produced
     }
 }
+
+/// Zeros fed per call by [`Block::flush`].
+const FLUSH_PIECE: usize = 256;
 
 /// A block that maps each input sample to exactly one output sample: write `next` and get
 /// [`Block`] for free (rate 1, the slice loop, the output bound).

@@ -85,21 +85,21 @@ impl Block for AudioStage {
 pub fn validate_audio(audio_rate: f64, bandwidth_hz: f64) -> Result<()> {
     if !(audio_rate.is_finite() && (1000.0..=384_000.0).contains(&audio_rate)) {
         return Err(Error::parameter(
-            "--audio-rate",
+            "audio_rate",
             audio_rate,
             "must be between 1000 and 384000 Hz",
         ));
     }
     if !(bandwidth_hz.is_finite() && bandwidth_hz > 0.0) {
         return Err(Error::parameter(
-            "--bandwidth",
+            "bandwidth_hz",
             bandwidth_hz,
             "must be a positive number of Hz",
         ));
     }
     if bandwidth_hz >= 0.45 * audio_rate {
         return Err(Error::parameter(
-            "--bandwidth",
+            "bandwidth_hz",
             bandwidth_hz,
             format!(
                 "must be below 0.45 × the audio rate ({} Hz)",

@@ -1,7 +1,17 @@
-//! Settings shared by every mode's receiver, and the choices the command line offers.
+//! What a user chooses for a receiver: one [`ReceiverConfig`] for every mode, and the
+//! [`ModeSettings`] it resolves to once the mode's defaults fill the gaps.
+//!
+//! Each concern is validated once, by the part that owns it: tuning by the front end, audio
+//! rate and bandwidth by the audio stage, loop settings by the loop, the options a mode accepts
+//! by the mode table ([`crate::demod::mode`]).
 
+use super::Mode;
 use crate::dsp::AgcSettings;
+pub use crate::sync::LoopSettings;
 use serde::Serialize;
+
+/// The audio rate when none is given, 48 kHz (common practice, no source).
+pub const DEFAULT_AUDIO_RATE_HZ: f64 = 48_000.0;
 
 /// Which sideband a receiver keeps.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize)]
@@ -11,6 +21,16 @@ pub enum Sideband {
     Upper,
     /// Frequencies below the carrier.
     Lower,
+}
+
+impl Sideband {
+    /// `upper` or `lower`.
+    pub fn name(self) -> &'static str {
+        match self {
+            Sideband::Upper => "upper",
+            Sideband::Lower => "lower",
+        }
+    }
 }
 
 /// How single sideband is demodulated.
@@ -25,28 +45,13 @@ pub enum SsbMethod {
     Weaver,
 }
 
-/// Carrier-loop overrides; `None` keeps the mode's default.
-#[derive(Debug, Clone, Copy, PartialEq, Default)]
-pub struct LoopSettings {
-    /// One-sided loop noise bandwidth in Hz.
-    pub bandwidth_hz: Option<f64>,
-    /// Damping ζ.
-    pub damping: Option<f64>,
-}
-
-impl LoopSettings {
-    /// True when either value was set.
-    pub fn is_set(&self) -> bool {
-        self.bandwidth_hz.is_some() || self.damping.is_some()
-    }
-}
-
-/// The options of a receiver that do not depend on the recording.
+/// The options of a receiver that do not depend on the recording; `None` keeps the mode's
+/// default from the mode table.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ReceiverOptions {
     /// Audio rate in Hz.
     pub audio_rate: f64,
-    /// Audio bandwidth in Hz; the mode's default when `None`.
+    /// Audio (message) bandwidth in Hz.
     pub bandwidth_hz: Option<f64>,
     /// Keep one sideband only (`sam`).
     pub sideband: Option<Sideband>,
@@ -56,8 +61,10 @@ pub struct ReceiverOptions {
     pub carrier_lock: bool,
     /// Carrier-loop overrides.
     pub loop_settings: LoopSettings,
-    /// Gain control; the mode's default when `None`.
+    /// Gain control.
     pub agc: Option<AgcSettings>,
+    /// Width of the vestige in Hz (`vsb`).
+    pub vestige_hz: Option<f64>,
     /// Correct the front end's IQ gain and phase imbalance blindly before receiving.
     pub iq_balance: bool,
 }
@@ -65,13 +72,14 @@ pub struct ReceiverOptions {
 impl Default for ReceiverOptions {
     fn default() -> Self {
         ReceiverOptions {
-            audio_rate: 48_000.0,
+            audio_rate: DEFAULT_AUDIO_RATE_HZ,
             bandwidth_hz: None,
             sideband: None,
             ssb_method: SsbMethod::default(),
             carrier_lock: false,
             loop_settings: LoopSettings::default(),
             agc: None,
+            vestige_hz: None,
             iq_balance: false,
         }
     }
@@ -97,4 +105,36 @@ impl ReceiverConfig {
             options: ReceiverOptions::default(),
         }
     }
+}
+
+/// A [`ReceiverConfig`] for one mode with the mode's defaults filled in: what a detector is
+/// built from.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ModeSettings {
+    /// The mode.
+    pub mode: Mode,
+    /// IQ sample rate in Hz.
+    pub input_rate: f64,
+    /// Tuned frequency relative to the recording centre, in Hz.
+    pub offset_hz: f64,
+    /// Audio rate in Hz.
+    pub audio_rate: f64,
+    /// Audio (message) bandwidth W in Hz.
+    pub bandwidth_hz: f64,
+    /// Gain control.
+    pub agc: AgcSettings,
+    /// One sideband only (`sam`).
+    pub sideband: Option<Sideband>,
+    /// SSB method.
+    pub ssb_method: SsbMethod,
+    /// Pilot or carrier lock (`usb`, `lsb`).
+    pub carrier_lock: bool,
+    /// Loop bandwidth B_L in Hz, when the mode has a loop.
+    pub loop_bandwidth_hz: Option<f64>,
+    /// Loop damping ζ.
+    pub loop_damping: f64,
+    /// Vestige width in Hz (`vsb`).
+    pub vestige_hz: Option<f64>,
+    /// Blind IQ-imbalance correction ahead of the front end.
+    pub iq_balance: bool,
 }

@@ -100,7 +100,7 @@ impl DiodeConfig {
             && self.bandwidth_hz < 0.4 * self.input_rate)
         {
             return Err(Error::parameter(
-                "--bandwidth",
+                "bandwidth_hz",
                 self.bandwidth_hz,
                 "the diode detector needs a bandwidth in (0, 0.4 × the channel rate)",
             ));
@@ -280,7 +280,7 @@ impl Block for DiodeDetector {
 
     fn delay(&self) -> f64 {
         let l = self.config.oversample as f64;
-        self.interpolator.delay() / l + self.decimator.delay() / l
+        self.interpolator.delay() + self.decimator.delay() / l
     }
 
     fn reset(&mut self) {

@@ -1,21 +1,54 @@
-//! The receive front end every mode shares: centre-spike removal, tuning, decimation to the
+//! The receive front end: the [`FrontEnd`] seam every detector is fed through, and the tuner
+//! every mode uses today ([`ChannelFrontEnd`]): centre-spike removal, tuning, decimation to the
 //! detection rate, the channel filter, and the spectrum that carrier and CNR are measured on.
 
-use crate::block::{pieces_bound, Block};
+use crate::block::{pieces_bound, Block, PIECE};
 use crate::dsp::{
     design_lowpass, DcBlocker, DecimationPlan, Fir, LowpassSpec, Mixer, MultiStageDecimator,
 };
 use crate::measure::{estimate_cnr_db_within, find_carrier, CarrierPeak, PowerSpectrum};
 use crate::{Complex32, Error, Result};
 
-/// Input samples processed per internal step; sizes every internal buffer.
-pub const CHUNK: usize = 8192;
 /// Stopband attenuation of the decimation and audio filters (common practice, no source).
 pub const FILTER_ATTENUATION_DB: f64 = 70.0;
 /// How far beyond the channel the decimation keeps the spectrum flat, in channel widths.
 const NOISE_VIEW: f64 = 2.0;
 /// Corner of the centre-spike blocker (common practice, no source).
 const SPIKE_CORNER_HZ: f64 = 10.0;
+
+/// What a detector is fed by: complex baseband at the detection rate with the tuned frequency
+/// at 0 Hz, plus the spectrum carrier and CNR are measured on. A tuner over a recording and
+/// one output of a channelizer are both front ends; the detector cannot tell which fed it.
+pub trait FrontEnd: Block<Input = Complex32, Output = Complex32> + Send {
+    /// The rate the channel comes out at, in Hz.
+    fn detection_rate(&self) -> f64;
+    /// The tuned frequency relative to the recording centre, in Hz.
+    fn offset_hz(&self) -> f64;
+    /// Retunes while running, phase-continuously (no click); the spectrum starts again.
+    fn set_offset(&mut self, offset_hz: f64) -> Result<()>;
+    /// The averaged spectrum of the tuned signal around the channel, at the detection rate.
+    fn spectrum(&self) -> &PowerSpectrum;
+    /// The half-width of the band the spectrum is flat over (noise is read there), in Hz.
+    fn flat_band_hz(&self) -> f64;
+    /// Output samples until the filters have settled.
+    fn settling_samples(&self) -> usize;
+
+    /// The strongest spectral line within ±`search_hz` of `around_hz` (channel frequency).
+    fn find_carrier_near(&self, around_hz: f64, search_hz: f64) -> Option<CarrierPeak> {
+        find_carrier(self.spectrum(), around_hz, search_hz)
+    }
+
+    /// Carrier over noise in 2 × `message_bandwidth_hz`, in dB, noise from the flat band.
+    fn cnr_db(&self, carrier: &CarrierPeak, message_bandwidth_hz: f64) -> Option<f64> {
+        let cnr = estimate_cnr_db_within(
+            self.spectrum(),
+            carrier,
+            message_bandwidth_hz,
+            self.flat_band_hz(),
+        );
+        cnr.is_finite().then_some(cnr)
+    }
+}
 
 /// Settings of the front end.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -69,7 +102,7 @@ impl ChannelFrontEnd {
         let plan = DecimationPlan::new(config.input_rate, min_rate, view, FILTER_ATTENUATION_DB)?;
         let detection_rate = plan.output_rate;
         let decimator = MultiStageDecimator::new(&plan)?;
-        let mid = decimator.max_output_len(CHUNK);
+        let mid = decimator.max_output_len(PIECE);
         Ok(ChannelFrontEnd {
             spike: centre_spike_blocker(&config)?,
             mixer: Mixer::new(-config.offset_hz, config.input_rate)?,
@@ -78,59 +111,15 @@ impl ChannelFrontEnd {
             decimator,
             detection_rate,
             config,
-            unspiked: vec![Complex32::default(); CHUNK],
-            tuned: vec![Complex32::default(); CHUNK],
+            unspiked: vec![Complex32::default(); PIECE],
+            tuned: vec![Complex32::default(); PIECE],
             decimated: vec![Complex32::default(); mid],
         })
-    }
-
-    /// The rate the channel comes out at, in Hz.
-    pub fn detection_rate(&self) -> f64 {
-        self.detection_rate
     }
 
     /// The settings.
     pub fn config(&self) -> &FrontEndConfig {
         &self.config
-    }
-
-    /// The averaged spectrum of the tuned, decimated signal before the channel filter.
-    pub fn spectrum(&self) -> &PowerSpectrum {
-        &self.spectrum
-    }
-
-    /// The half-width of the band the decimation keeps flat, in Hz.
-    pub fn flat_band_hz(&self) -> f64 {
-        (NOISE_VIEW * self.config.channel_hz).min(0.45 * self.detection_rate)
-    }
-
-    /// The strongest spectral line within ±`search_hz` of the tuned frequency.
-    pub fn find_carrier(&self, search_hz: f64) -> Option<CarrierPeak> {
-        find_carrier(&self.spectrum, 0.0, search_hz)
-    }
-
-    /// Carrier over noise in 2 × `message_bandwidth_hz`, in dB, noise from the flat band.
-    pub fn cnr_db(&self, carrier: &CarrierPeak, message_bandwidth_hz: f64) -> Option<f64> {
-        let cnr = estimate_cnr_db_within(
-            &self.spectrum,
-            carrier,
-            message_bandwidth_hz,
-            self.flat_band_hz(),
-        );
-        cnr.is_finite().then_some(cnr)
-    }
-
-    /// Output samples until the filters have settled: twice their delay, plus five time
-    /// constants of the centre-spike blocker when it is in use.
-    pub fn settling_samples(&self) -> usize {
-        let factor = self.config.input_rate / self.detection_rate;
-        let filters = self.decimator.delay() / factor + self.channel.delay();
-        let spike = if self.spike.is_some() {
-            5.0 * self.detection_rate / (std::f64::consts::TAU * SPIKE_CORNER_HZ)
-        } else {
-            0.0
-        };
-        (2.0 * filters + spike).ceil() as usize
     }
 
     /// Exactly how many outputs the next `input_len` inputs give from the current state.
@@ -163,7 +152,7 @@ impl Block for ChannelFrontEnd {
         let mut consumed = 0;
         let mut produced = 0;
         while consumed < input.len() {
-            let n = CHUNK.min(input.len() - consumed);
+            let n = PIECE.min(input.len() - consumed);
             if self.output_len(n) > output.len() - produced {
                 break;
             }
@@ -174,7 +163,7 @@ impl Block for ChannelFrontEnd {
     }
 
     fn max_output_len(&self, input_len: usize) -> usize {
-        pieces_bound(input_len, CHUNK, |n| self.decimator.max_output_len(n))
+        pieces_bound(input_len, PIECE, |n| self.decimator.max_output_len(n))
     }
 
     fn rate_ratio(&self) -> f64 {
@@ -191,9 +180,52 @@ impl Block for ChannelFrontEnd {
             dc.reset();
         }
         self.mixer.reset();
+        self.config.offset_hz = -self.mixer.frequency();
         self.decimator.reset();
         self.channel.reset();
         self.spectrum.reset();
+    }
+}
+
+impl FrontEnd for ChannelFrontEnd {
+    fn detection_rate(&self) -> f64 {
+        self.detection_rate
+    }
+
+    fn offset_hz(&self) -> f64 {
+        self.config.offset_hz
+    }
+
+    /// The new channel must fit as the first did; the centre-spike blocker stays as it was
+    /// chosen at construction.
+    fn set_offset(&mut self, offset_hz: f64) -> Result<()> {
+        let c = &self.config;
+        validate_tuning(c.input_rate, offset_hz, c.channel_hz)?;
+        self.mixer.set_frequency(-offset_hz)?;
+        self.config.offset_hz = offset_hz;
+        self.spectrum.reset();
+        Ok(())
+    }
+
+    fn spectrum(&self) -> &PowerSpectrum {
+        &self.spectrum
+    }
+
+    fn flat_band_hz(&self) -> f64 {
+        (NOISE_VIEW * self.config.channel_hz).min(0.45 * self.detection_rate)
+    }
+
+    /// Twice the filters' delay, plus five time constants of the centre-spike blocker when
+    /// it is in use.
+    fn settling_samples(&self) -> usize {
+        let factor = self.config.input_rate / self.detection_rate;
+        let filters = self.decimator.delay() / factor + self.channel.delay();
+        let spike = if self.spike.is_some() {
+            5.0 * self.detection_rate / (std::f64::consts::TAU * SPIKE_CORNER_HZ)
+        } else {
+            0.0
+        };
+        (2.0 * filters + spike).ceil() as usize
     }
 }
 
@@ -201,7 +233,7 @@ impl Block for ChannelFrontEnd {
 pub fn validate_tuning(input_rate: f64, offset_hz: f64, channel_hz: f64) -> Result<()> {
     if !(input_rate.is_finite() && input_rate > 0.0) {
         return Err(Error::parameter(
-            "--rate",
+            "input_rate",
             input_rate,
             "the sample rate must be a positive number of Hz",
         ));
@@ -209,21 +241,21 @@ pub fn validate_tuning(input_rate: f64, offset_hz: f64, channel_hz: f64) -> Resu
     let nyquist = input_rate / 2.0;
     if !offset_hz.is_finite() || offset_hz.abs() >= nyquist {
         return Err(Error::parameter(
-            "--offset",
+            "offset_hz",
             offset_hz,
             format!("outside ±rate/2 (±{nyquist} Hz) of the recording"),
         ));
     }
     if !(channel_hz.is_finite() && channel_hz > 0.0) {
         return Err(Error::parameter(
-            "--bandwidth",
+            "bandwidth_hz",
             channel_hz,
             "must be a positive number of Hz",
         ));
     }
     if offset_hz.abs() + channel_hz >= 0.9 * nyquist {
         return Err(Error::parameter(
-            "--bandwidth",
+            "bandwidth_hz",
             channel_hz,
             format!("the channel (offset ± bandwidth) does not fit inside 90 % of ±rate/2 (±{nyquist} Hz)"),
         ));
@@ -290,7 +322,7 @@ mod tests {
         let mut fe = ChannelFrontEnd::new(config()).unwrap();
         let out = process_to_vec(&mut fe, &tone(-123_456.0 + 700.0, 192_000));
         assert_eq!(out.len(), 9600);
-        let peak = fe.find_carrier(2000.0).unwrap();
+        let peak = fe.find_carrier_near(0.0, 2000.0).unwrap();
         assert!((peak.frequency_hz - 700.0).abs() < 0.5, "{peak:?}");
         // 0.5 amplitude, unity passband gain: the settled output keeps |y| = 0.5.
         let worst = out[2000..]

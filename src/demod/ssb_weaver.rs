@@ -49,7 +49,7 @@ impl WeaverDetector {
             && bandwidth_hz > low_edge_hz)
         {
             return Err(Error::parameter(
-                "--bandwidth",
+                "bandwidth_hz",
                 bandwidth_hz,
                 format!("the SSB audio band must lie above its low edge ({low_edge_hz} Hz)"),
             ));

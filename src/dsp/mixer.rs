@@ -25,6 +25,8 @@ const TABLE_LEN: usize = 1024;
 #[derive(Debug, Clone)]
 pub struct Mixer {
     frequency_hz: f64,
+    initial_frequency_hz: f64,
+    sample_rate: f64,
     /// e^{j2πfk/fs}, k in 0..TABLE_LEN, in f64.
     table: Vec<(f64, f64)>,
     /// start·table[k] for the current block, in f32.
@@ -41,26 +43,46 @@ impl Mixer {
     /// A mixer shifting by `frequency_hz`; |f| ≤ fs/2 or an error naming `--offset`.
     pub fn new(frequency_hz: f64, sample_rate: f64) -> Result<Self> {
         validate_frequency(frequency_hz, sample_rate)?;
-        let cycles_per_sample = frequency_hz / sample_rate;
-        let table = (0..TABLE_LEN)
-            .map(|k| {
-                let (s, c) = (TAU * (cycles_per_sample * k as f64).fract()).sin_cos();
-                (c, s)
-            })
-            .collect();
         let mut mixer = Mixer {
             frequency_hz,
-            table,
+            initial_frequency_hz: frequency_hz,
+            sample_rate,
+            table: vec![(1.0, 0.0); TABLE_LEN],
             rotation: vec![Complex32::new(1.0, 0.0); TABLE_LEN],
             block_phase: 0.0,
-            block_step: (cycles_per_sample * TABLE_LEN as f64).rem_euclid(1.0),
+            block_step: 0.0,
             position: 0,
         };
+        mixer.tabulate(frequency_hz);
         mixer.fill_rotation();
         Ok(mixer)
     }
 
-    /// The shift in Hz.
+    /// Changes the frequency without a phase step: the next sample continues from the phase
+    /// the last one reached. Used to retune a running receiver without a click.
+    pub fn set_frequency(&mut self, frequency_hz: f64) -> Result<()> {
+        validate_frequency(frequency_hz, self.sample_rate)?;
+        let cycles_per_sample = self.frequency_hz / self.sample_rate;
+        let phase = self.block_phase + cycles_per_sample * self.position as f64;
+        self.tabulate(frequency_hz);
+        self.block_phase = phase.rem_euclid(1.0);
+        self.position = 0;
+        self.fill_rotation();
+        Ok(())
+    }
+
+    /// Fills the per-block table for `frequency_hz`, in f64 and rounded once.
+    fn tabulate(&mut self, frequency_hz: f64) {
+        let cycles_per_sample = frequency_hz / self.sample_rate;
+        for (k, t) in self.table.iter_mut().enumerate() {
+            let (s, c) = (TAU * (cycles_per_sample * k as f64).fract()).sin_cos();
+            *t = (c, s);
+        }
+        self.block_step = (cycles_per_sample * TABLE_LEN as f64).rem_euclid(1.0);
+        self.frequency_hz = frequency_hz;
+    }
+
+    /// The frequency shift in Hz.
     pub fn frequency(&self) -> f64 {
         self.frequency_hz
     }
@@ -124,6 +146,9 @@ impl Block for Mixer {
     }
 
     fn reset(&mut self) {
+        if self.frequency_hz != self.initial_frequency_hz {
+            self.tabulate(self.initial_frequency_hz);
+        }
         self.block_phase = 0.0;
         self.position = 0;
         self.fill_rotation();

@@ -1,10 +1,10 @@
 //! The detectors the lab can measure: any mode's receiver from [`build_receiver`], or the
 //! physical diode-and-RC envelope detector.
 
-use super::diode_receiver::DiodeReceiver;
+use super::diode_receiver::diode_receiver;
 use super::signal::TestSignal;
 use super::theory::{full_carrier_figure_of_merit, SUPPRESSED_CARRIER_FIGURE_OF_MERIT};
-use crate::demod::{build_receiver, Mode, Receiver, ReceiverConfig};
+use crate::demod::{build_receiver, Mode, Receiver, ReceiverConfig, Transmission, MODES};
 use crate::{Error, Result};
 use std::fmt;
 use std::str::FromStr;
@@ -57,19 +57,17 @@ impl Detector {
 
     /// The tone signal this detector is measured with.
     pub fn test_signal(&self) -> Result<TestSignal> {
-        match self {
-            Detector::Diode { .. } | Detector::Receiver(Mode::Am | Mode::Sam) => {
-                Ok(TestSignal::FullCarrier)
-            }
-            Detector::Receiver(Mode::Dsb) => Ok(TestSignal::SuppressedCarrier),
-            Detector::Receiver(Mode::Usb) => Ok(TestSignal::UpperSideband),
-            Detector::Receiver(Mode::Lsb) => Ok(TestSignal::LowerSideband),
-            Detector::Receiver(mode) => Err(Error::parameter(
-                "--detectors",
+        let mode = match self {
+            Detector::Diode { .. } => return Ok(TestSignal::FullCarrier),
+            Detector::Receiver(mode) => *mode,
+        };
+        lab_signal(mode.spec().transmission).ok_or_else(|| {
+            Error::parameter(
+                "detectors",
                 mode,
-                "the lab measures am, sam, dsb, usb, lsb and diode",
-            )),
-        }
+                format!("the lab measures {}", lab_names()),
+            )
+        })
     }
 
     /// True for detectors fed a full carrier (CNR is defined for them).
@@ -87,26 +85,20 @@ impl Detector {
         }
     }
 
-    /// The detector's complete receiver; [`Error::NotYetAvailable`] for a mode not built yet.
+    /// The detector's complete receiver.
     pub fn build(&self, config: &ReceiverConfig) -> Result<Box<dyn Receiver>> {
         self.test_signal()?;
         match self {
             Detector::Receiver(mode) => build_receiver(*mode, config),
             Detector::Diode { rc_s } => {
-                let bandwidth = config.options.bandwidth_hz.ok_or_else(|| {
-                    Error::parameter(
-                        "--bandwidth",
+                if config.options.bandwidth_hz.is_none() {
+                    return Err(Error::parameter(
+                        "bandwidth_hz",
                         "none",
                         "the diode detector needs a bandwidth",
-                    )
-                })?;
-                Ok(Box::new(DiodeReceiver::new(
-                    config.input_rate,
-                    config.offset_hz,
-                    bandwidth,
-                    *rc_s,
-                    config.options.audio_rate,
-                )?))
+                    ));
+                }
+                Ok(Box::new(diode_receiver(config, *rc_s)?))
             }
         }
     }
@@ -129,16 +121,16 @@ impl FromStr for Detector {
         }
         if let Some(us) = s.strip_prefix("diode:") {
             let rc_us: f64 = us.parse().map_err(|_| {
-                Error::parameter("--detectors", s, "diode:<RC in µs>, e.g. diode:100")
+                Error::parameter("detectors", s, "diode:<RC in µs>, e.g. diode:100")
             })?;
             if !(rc_us.is_finite() && rc_us > 0.0) {
-                return Err(Error::parameter("--detectors", s, "RC must be positive"));
+                return Err(Error::parameter("detectors", s, "RC must be positive"));
             }
             return Ok(Detector::Diode { rc_s: rc_us * 1e-6 });
         }
-        let mode: Mode = s
-            .parse()
-            .map_err(|problem: String| Error::parameter("--detectors", s, problem))?;
+        let mode: Mode = s.parse().map_err(|_| {
+            Error::parameter("detectors", s, format!("not a detector ({})", lab_names()))
+        })?;
         let detector = Detector::Receiver(mode);
         detector.test_signal()?;
         Ok(detector)
@@ -146,6 +138,30 @@ impl FromStr for Detector {
 }
 
 /// Parses a comma-separated detector list such as `am,diode,sam`.
+/// The lab's test signal for a transmission, where the lab has one.
+fn lab_signal(transmission: Transmission) -> Option<TestSignal> {
+    match transmission {
+        Transmission::FullCarrier => Some(TestSignal::FullCarrier),
+        Transmission::SuppressedCarrier => Some(TestSignal::SuppressedCarrier),
+        Transmission::UpperSideband => Some(TestSignal::UpperSideband),
+        Transmission::LowerSideband => Some(TestSignal::LowerSideband),
+        Transmission::IndependentSidebands | Transmission::Vestigial => None,
+    }
+}
+
+/// The detectors the lab can sweep: every mode of the table it has a test signal for, and
+/// the diode.
+pub fn lab_names() -> String {
+    let mut names: Vec<&str> = MODES
+        .iter()
+        .filter(|m| lab_signal(m.transmission).is_some())
+        .map(|m| m.name)
+        .collect();
+    names.push("diode");
+    names.join(", ")
+}
+
+/// Parses a comma-separated detector list such as `am,sam,diode:100`.
 pub fn parse_detectors(list: &str) -> Result<Vec<Detector>> {
     list.split(',')
         .filter(|s| !s.trim().is_empty())

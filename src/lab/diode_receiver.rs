@@ -1,134 +1,66 @@
 //! A full-carrier AM receiver whose detector is the physical diode-and-RC model: the shared
-//! front end, the [`DiodeDetector`], and the shared audio stage.
+//! assembly with the [`DiodeDetector`] in the detector's place.
 
 use crate::block::Block;
-use crate::demod::audio_stage::validate_audio;
-use crate::demod::front_end::CHUNK;
-use crate::demod::pieces::Pieces;
 use crate::demod::{
-    AudioStage, ChannelFrontEnd, DiodeConfig, DiodeDetector, FrontEndConfig, Measurements, Receiver,
+    Assembly, ChannelFrontEnd, Detector, DiodeConfig, DiodeDetector, FrontEnd, FrontEndConfig,
+    Measurements, Mode, ReceiverConfig,
 };
 use crate::{Complex32, Result};
 
-/// Front end (channel filter ±W) → diode and RC on a real IF → DC removal and audio low-pass.
-pub struct DiodeReceiver {
-    bandwidth_hz: f64,
-    audio_rate: f64,
-    input_rate: f64,
-    front: ChannelFrontEnd,
+/// The diode-and-RC envelope detector as a receiver's detector, with carrier metering.
+pub struct DiodeEnvelope {
     diode: DiodeDetector,
-    audio: AudioStage,
-    channel: Vec<Complex32>,
-    detected: Vec<f32>,
+    bandwidth_hz: f64,
 }
 
-impl DiodeReceiver {
-    /// A receiver for a carrier at `offset_hz` in IQ at `input_rate`, message bandwidth
-    /// `bandwidth_hz`, RC time constant `rc_s`, audio at `audio_rate`.
-    ///
-    /// ```
-    /// use amrx::lab::DiodeReceiver;
-    /// use amrx::demod::Receiver;
-    /// let rx = DiodeReceiver::new(96_000.0, 12_000.0, 5_000.0, 50e-6, 48_000.0).unwrap();
-    /// assert_eq!(rx.audio_rate(), 48_000.0);
-    /// ```
-    pub fn new(
-        input_rate: f64,
-        offset_hz: f64,
-        bandwidth_hz: f64,
-        rc_s: f64,
-        audio_rate: f64,
-    ) -> Result<Self> {
-        validate_audio(audio_rate, bandwidth_hz)?;
-        let front = ChannelFrontEnd::new(FrontEndConfig {
-            input_rate,
-            offset_hz,
-            channel_hz: bandwidth_hz,
-            min_detection_rate: audio_rate,
-        })?;
-        let rate = front.detection_rate();
-        let diode = DiodeDetector::new(DiodeConfig::new(rate, bandwidth_hz, rc_s))?;
-        let mid = diode.max_output_len(front.max_output_len(CHUNK));
-        Ok(DiodeReceiver {
-            audio: AudioStage::new(rate, audio_rate, bandwidth_hz, mid)?,
-            channel: vec![Complex32::default(); front.max_output_len(CHUNK)],
-            detected: vec![0.0; mid],
-            bandwidth_hz,
-            audio_rate,
-            input_rate,
-            front,
-            diode,
-        })
-    }
+/// A full-carrier AM receiver with the diode detector.
+pub type DiodeReceiver = Assembly<DiodeEnvelope>;
 
-    /// The detector's settings (rates, IF, RC).
+/// The diode receiver for `config` (the `am` mode's defaults) with time constant `rc_s`.
+pub fn diode_receiver(config: &ReceiverConfig, rc_s: f64) -> Result<DiodeReceiver> {
+    let settings = Mode::Am.spec().resolve(config)?;
+    let front = ChannelFrontEnd::new(FrontEndConfig {
+        input_rate: settings.input_rate,
+        offset_hz: settings.offset_hz,
+        channel_hz: settings.bandwidth_hz,
+        min_detection_rate: settings.audio_rate,
+    })?;
+    Assembly::with_front_end(settings, Vec::new(), Box::new(front), |s, c| {
+        Ok(DiodeEnvelope {
+            diode: DiodeDetector::new(DiodeConfig::new(c.detection_rate, s.bandwidth_hz, rc_s))?,
+            bandwidth_hz: s.bandwidth_hz,
+        })
+    })
+}
+
+impl DiodeEnvelope {
+    /// The diode circuit's settings.
     pub fn diode(&self) -> &DiodeConfig {
         self.diode.config()
     }
 }
 
-impl Pieces for DiodeReceiver {
-    fn piece_bound(&self, n: usize) -> usize {
-        let channel = self.front.max_output_len(n);
-        self.audio
-            .max_output_len(self.diode.max_output_len(channel))
-    }
-
-    fn process_piece(&mut self, input: &[Complex32], output: &mut [f32]) -> usize {
-        let (_, n) = self.front.process(input, &mut self.channel);
-        let (_, m) = self.diode.process(&self.channel[..n], &mut self.detected);
-        self.audio.process(&self.detected[..m], output).1
-    }
-}
-
-impl Block for DiodeReceiver {
-    type Input = Complex32;
-    type Output = f32;
-
-    fn process(&mut self, input: &[Complex32], output: &mut [f32]) -> (usize, usize) {
-        self.process_pieces(input, output)
-    }
-
-    fn max_output_len(&self, input_len: usize) -> usize {
-        self.pieces_output_len(input_len)
-    }
-
-    fn rate_ratio(&self) -> f64 {
-        self.audio_rate / self.input_rate
+impl Detector for DiodeEnvelope {
+    fn detect(&mut self, channel: &mut [Complex32], audio: &mut [Vec<f32>]) {
+        let n = channel.len();
+        let (_, produced) = self.diode.process(channel, &mut audio[0][..n]);
+        debug_assert_eq!(produced, n, "the diode model gives one output per input");
     }
 
     fn delay(&self) -> f64 {
-        let factor = self.input_rate / self.front.detection_rate();
-        self.front.delay() + (self.diode.delay() + self.audio.delay()) * factor
+        self.diode.delay()
     }
 
     fn reset(&mut self) {
-        self.front.reset();
         self.diode.reset();
-        self.audio.reset();
-    }
-}
-
-impl Receiver for DiodeReceiver {
-    fn audio_channels(&self) -> usize {
-        1
     }
 
-    fn audio_rate(&self) -> f64 {
-        self.audio_rate
-    }
-
-    fn bandwidth_hz(&self) -> f64 {
-        self.bandwidth_hz
-    }
-
-    fn measurements(&self) -> Measurements {
-        let mut m = Measurements::default();
-        if let Some(peak) = self.front.find_carrier(0.5 * self.bandwidth_hz) {
-            m.carrier_offset_hz = Some(self.front.config().offset_hz + peak.frequency_hz);
-            m.cnr_db = self.front.cnr_db(&peak, self.bandwidth_hz);
+    fn measure(&self, front: &dyn FrontEnd, m: &mut Measurements) {
+        if let Some(peak) = front.find_carrier_near(0.0, 0.5 * self.bandwidth_hz) {
+            m.carrier_offset_hz = Some(front.offset_hz() + peak.frequency_hz);
+            m.cnr_db = front.cnr_db(&peak, self.bandwidth_hz);
         }
-        m
     }
 }
 
@@ -147,7 +79,9 @@ mod tests {
     }
 
     fn receiver() -> DiodeReceiver {
-        DiodeReceiver::new(96_000.0, 12_000.0, 5000.0, 50e-6, 48_000.0).unwrap()
+        let mut config = ReceiverConfig::new(96_000.0, 12_000.0);
+        config.options.bandwidth_hz = Some(5000.0);
+        diode_receiver(&config, 50e-6).unwrap()
     }
 
     #[test]

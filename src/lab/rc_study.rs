@@ -1,10 +1,10 @@
 //! The diode detector's time-constant trade-off on a clean tone: ripple when RC is short
 //! against the carrier period, diagonal clipping when it is long against the message period.
 
-use super::diode_receiver::DiodeReceiver;
+use super::diode_receiver::diode_receiver;
 use super::theory::diagonal_clipping_limit_s;
 use crate::block::process_to_vec;
-use crate::demod::{capacitor_voltage, DiodeConfig};
+use crate::demod::{capacitor_voltage, DiodeConfig, ReceiverConfig};
 use crate::measure::{fit_tone, sinad_db};
 use crate::synth::AmToneTransmitter;
 use crate::{Complex32, Error, Result};
@@ -42,10 +42,13 @@ pub struct RcMeasurement {
 }
 
 /// Measures `rc_s` on tone AM of index `mu` at `tone_hz`: ripple on the unmodulated IF carrier,
-/// and gain and SINAD of 1 s of audio from the [`DiodeReceiver`] after 0.25 s of settling.
+/// and gain and SINAD of 1 s of audio from the [`DiodeReceiver`](super::diode_receiver::DiodeReceiver) after 0.25 s of settling.
 pub fn measure_rc(rc_s: f64, mu: f64, tone_hz: f64) -> Result<RcMeasurement> {
-    let mut rx = DiodeReceiver::new(IQ_RATE, OFFSET_HZ, BANDWIDTH_HZ, rc_s, AUDIO_RATE)?;
-    let config = *rx.diode();
+    let mut receiver_config = ReceiverConfig::new(IQ_RATE, OFFSET_HZ);
+    receiver_config.options.bandwidth_hz = Some(BANDWIDTH_HZ);
+    receiver_config.options.audio_rate = AUDIO_RATE;
+    let mut rx = diode_receiver(&receiver_config, rc_s)?;
+    let config = *rx.detector().diode();
     let mut tx = AmToneTransmitter::new(CARRIER, mu, tone_hz, OFFSET_HZ, IQ_RATE)?;
     let mut iq = vec![Complex32::default(); (1.25 * IQ_RATE) as usize];
     tx.fill(&mut iq);

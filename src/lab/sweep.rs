@@ -274,8 +274,8 @@ impl SweepResult {
 /// Per point the output SNR is the mean of the trials' linear output SNRs (shown in dB), with
 /// its standard error. Every trial's noise is seeded by [`trial_seed`] from (seed, detector name, point
 /// index, trial index), so the result does not depend on the number of threads or their
-/// scheduling. Errors: an invalid spec, a detector whose receiver is not available
-/// ([`Error::NotYetAvailable`]), or a trial whose output SNR cannot be measured.
+/// scheduling. Errors: an invalid spec, or a trial whose output SNR cannot be
+/// measured.
 ///
 /// ```no_run
 /// use amrx::lab::{run_sweep, Axis, Detector, SweepSpec};

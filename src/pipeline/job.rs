@@ -80,7 +80,12 @@ pub fn run_demod(request: &DemodRequest, progress: &(dyn Fn(u64) + Sync)) -> Res
     };
     let mut receiver = build_receiver(request.mode, &config)?;
     let mut sink = open_sink(&request.audio, receiver.as_ref())?;
+    let channels = receiver.audio_channels().max(1);
     let mut read_so_far = 0u64;
+    // The receiver's delay, in output samples, is dropped from the start so that the audio is
+    // aligned with the IQ and, with the flushed tail, as long as it.
+    let frames_late = (receiver.delay() * receiver.rate_ratio() / channels as f64).round();
+    let mut lead = frames_late as usize * channels;
     let totals = run_stream(
         |buf| {
             let n = source.read(buf)?;
@@ -89,7 +94,11 @@ pub fn run_demod(request: &DemodRequest, progress: &(dyn Fn(u64) + Sync)) -> Res
             Ok(n)
         },
         receiver.as_mut(),
-        |audio| sink.write(audio),
+        |audio| {
+            let skip = lead.min(audio.len());
+            lead -= skip;
+            sink.write(&audio[skip..])
+        },
         RuntimeConfig::default(),
     )?;
     sink.finish()?;
@@ -99,7 +108,9 @@ pub fn run_demod(request: &DemodRequest, progress: &(dyn Fn(u64) + Sync)) -> Res
         receiver.as_ref(),
         offset_hz,
         totals.samples_in,
-        totals.samples_out,
+        totals
+            .samples_out
+            .saturating_sub((frames_late as usize * channels) as u64),
     );
     if let Some(path) = &request.report {
         report.write(path)?;

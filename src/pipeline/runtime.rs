@@ -162,7 +162,9 @@ fn dsp_stage<B: Block + ?Sized>(
     full_out: Tx<Filled<B::Output>>,
 ) -> Result<()> {
     while let Ok(input) = full_in.recv() {
-        let Ok(mut out) = free_out.recv() else { break };
+        let Ok(mut out) = free_out.recv() else {
+            return Ok(());
+        };
         let (consumed, produced) = block.process(&input.buf[..input.len], &mut out);
         if consumed != input.len {
             return Err(Error::Pipeline {
@@ -179,10 +181,32 @@ fn dsp_stage<B: Block + ?Sized>(
             })
             .is_err()
         {
-            break;
+            return Ok(());
         }
     }
+    send_flushed_tail(block, &free_out, &full_out);
     Ok(())
+}
+
+/// At the end of the input, the tail the block's filters still hold goes out too, so the
+/// output covers the whole input. Allocates once, at the end of the stream.
+fn send_flushed_tail<B: Block + ?Sized>(
+    block: &mut B,
+    free_out: &Rx<Vec<B::Output>>,
+    full_out: &Tx<Filled<B::Output>>,
+) {
+    let mut tail = vec![B::Output::default(); block.flush_output_len()];
+    let n = block.flush(&mut tail);
+    let mut at = 0;
+    while at < n {
+        let Ok(mut out) = free_out.recv() else { return };
+        let len = out.len().min(n - at);
+        out[..len].copy_from_slice(&tail[at..at + len]);
+        at += len;
+        if full_out.send(Filled { buf: out, len }).is_err() {
+            return;
+        }
+    }
 }
 
 fn write_stage<T, Snk>(sink: &mut Snk, full: Rx<Filled<T>>, free: Tx<Vec<T>>) -> Result<u64>

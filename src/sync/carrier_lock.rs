@@ -1,8 +1,8 @@
 //! Carrier lock for SSB with a pilot or full carrier (R3E, H3E) and for VSB: a wide loop
 //! acquires the carrier, a narrow one tracks it, and while locked the signal is de-rotated.
 
+use super::LoopSettings;
 use super::{CarrierPll, PllConfig};
-use crate::demod::config::LoopSettings;
 use crate::{Complex32, Result};
 use num_complex::Complex64;
 

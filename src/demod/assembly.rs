@@ -1,0 +1,286 @@
+//! The one receiver: front-end guards, a front end, a detector, gain control and the audio
+//! stage, owning the piece loop, delay, reset, flush and channel count for every mode.
+
+use super::audio_stage::AudioStage;
+use super::config::{ModeSettings, ReceiverConfig};
+use super::detector::{Detector, DetectorContext, ModeDetector};
+use super::front_end::{ChannelFrontEnd, FrontEnd, FrontEndConfig};
+use super::iq_guard::IqBalanceGuard;
+use super::receiver::{Measurements, Receiver};
+use super::Mode;
+use crate::block::{pieces_bound, Block, PIECE};
+use crate::dsp::Agc;
+use crate::{Complex32, Result};
+
+/// A block on the IQ at the input rate, ahead of the front end (IQ balance, noise blanker).
+pub type Guard = Box<dyn Block<Input = Complex32, Output = Complex32> + Send>;
+
+/// A receiver: IQ at the input rate in, interleaved audio frames at the audio rate out.
+///
+/// ```
+/// use amrx::block::{process_to_vec, Block};
+/// use amrx::demod::{AmReceiver, Mode, Receiver, ReceiverConfig};
+/// use amrx::Complex32;
+///
+/// // A bare carrier 25 kHz above the centre of a 240 kS/s recording, 0.2 s long.
+/// let rate = 240_000.0;
+/// let iq: Vec<Complex32> = (0..48_000)
+///     .map(|n| Complex32::from_polar(0.5, (std::f64::consts::TAU * 25e3 * n as f64 / rate) as f32))
+///     .collect();
+/// let mut rx = AmReceiver::new(Mode::Am, &ReceiverConfig::new(rate, 25_000.0)).unwrap();
+/// let mut audio = process_to_vec(&mut rx, &iq);
+/// let mut tail = vec![0.0; rx.flush_output_len()];
+/// let n = rx.flush(&mut tail);
+/// audio.extend_from_slice(&tail[..n]);
+/// // 0.2 s in, 0.2 s (plus the delay the caller trims) out at 48 kHz.
+/// let delay = (rx.delay() * rx.rate_ratio()).round() as usize;
+/// assert!(((audio.len() - delay) as i64 - 9600).abs() <= 1);
+/// let m = rx.measurements();
+/// assert!((m.carrier_offset_hz.unwrap() - 25_000.0).abs() < 5.0);
+/// ```
+pub struct Assembly<D: Detector> {
+    settings: ModeSettings,
+    guards: Vec<Guard>,
+    front: Box<dyn FrontEnd>,
+    detector: D,
+    agcs: Vec<Agc>,
+    audio: Vec<AudioStage>,
+    guarded: [Vec<Complex32>; 2],
+    channel: Vec<Complex32>,
+    detected: Vec<Vec<f32>>,
+    stereo: Vec<Vec<f32>>,
+}
+
+/// The table's builder for a detector type: see [`super::MODES`].
+pub fn assemble<D: ModeDetector>(mode: Mode, config: &ReceiverConfig) -> Result<Box<dyn Receiver>> {
+    Ok(Box::new(Assembly::<D>::new(mode, config)?))
+}
+
+impl<D: ModeDetector> Assembly<D> {
+    /// The receiver for `mode` with the mode's defaults wherever `config` leaves a choice open:
+    /// the tuner front end, with IQ balancing ahead of it when asked for.
+    pub fn new(mode: Mode, config: &ReceiverConfig) -> Result<Self> {
+        let settings = mode.spec().resolve(config)?;
+        let front = ChannelFrontEnd::new(FrontEndConfig {
+            input_rate: settings.input_rate,
+            offset_hz: settings.offset_hz,
+            channel_hz: settings.bandwidth_hz,
+            min_detection_rate: settings.audio_rate,
+        })?;
+        let mut guards: Vec<Guard> = Vec::new();
+        if settings.iq_balance {
+            guards.push(Box::new(IqBalanceGuard::new(settings.input_rate)?));
+        }
+        Self::with_front_end(settings, guards, Box::new(front), |s, c| D::build(s, c))
+    }
+}
+
+impl<D: Detector> Assembly<D> {
+    /// A receiver from its parts: `settings` for the audio end and gain control, the `guards`
+    /// run in order on the IQ, any front end, and the detector `make` builds for it.
+    pub fn with_front_end(
+        settings: ModeSettings,
+        guards: Vec<Guard>,
+        front: Box<dyn FrontEnd>,
+        make: impl FnOnce(&ModeSettings, &DetectorContext) -> Result<D>,
+    ) -> Result<Self> {
+        let rate = front.detection_rate();
+        let mid = front.max_output_len(PIECE);
+        let context = DetectorContext {
+            detection_rate: rate,
+            settling_samples: front.settling_samples(),
+            max_piece: mid,
+        };
+        let detector = make(&settings, &context)?;
+        let channels = detector.channels();
+        let agc = |_| Agc::new(settings.agc, rate);
+        let stage = |_| AudioStage::new(rate, settings.audio_rate, settings.bandwidth_hz, mid);
+        let audio = (0..channels).map(stage).collect::<Result<Vec<_>>>()?;
+        let stereo_len = if channels > 1 {
+            audio[0].max_output_len(mid)
+        } else {
+            0
+        };
+        Ok(Assembly {
+            agcs: (0..channels).map(agc).collect::<Result<Vec<_>>>()?,
+            guarded: [
+                vec![Complex32::default(); PIECE],
+                vec![Complex32::default(); PIECE],
+            ],
+            channel: vec![Complex32::default(); mid],
+            detected: vec![vec![0.0; mid]; channels],
+            stereo: vec![vec![0.0; stereo_len]; channels],
+            audio,
+            settings,
+            guards,
+            front,
+            detector,
+        })
+    }
+
+    /// The settings, with the mode's defaults filled in.
+    pub fn settings(&self) -> &ModeSettings {
+        &self.settings
+    }
+
+    /// The rate the channel is filtered and detected at, in Hz.
+    pub fn detection_rate(&self) -> f64 {
+        self.front.detection_rate()
+    }
+
+    /// The detector, for its loops and meters.
+    pub fn detector(&self) -> &D {
+        &self.detector
+    }
+
+    /// The front end, for its spectrum.
+    pub fn front_end(&self) -> &dyn FrontEnd {
+        self.front.as_ref()
+    }
+
+    fn piece_bound(&self, n: usize) -> usize {
+        self.channels() * self.audio[0].max_output_len(self.front.max_output_len(n))
+    }
+
+    fn channels(&self) -> usize {
+        self.audio.len()
+    }
+
+    /// Runs the guards over `input` into the guard buffers; returns which buffer holds the
+    /// result, or `None` when there are no guards.
+    fn guard(&mut self, input: &[Complex32]) -> Option<usize> {
+        let n = input.len();
+        let mut at = None;
+        for guard in &mut self.guards {
+            let [a, b] = &mut self.guarded;
+            let (from, to, next) = match at {
+                None => (input, &mut a[..n], 0),
+                Some(0) => (&a[..n], &mut b[..n], 1),
+                Some(_) => (&b[..n], &mut a[..n], 0),
+            };
+            guard.process(from, to);
+            at = Some(next);
+        }
+        at
+    }
+
+    /// One piece of at most [`PIECE`] inputs through every stage; returns the outputs written.
+    fn process_piece(&mut self, input: &[Complex32], output: &mut [f32]) -> usize {
+        let guarded = self.guard(input);
+        let n = input.len();
+        let front_input = match guarded {
+            None => input,
+            Some(k) => &self.guarded[k][..n],
+        };
+        let (_, m) = self.front.process(front_input, &mut self.channel);
+        self.detector
+            .detect(&mut self.channel[..m], &mut self.detected);
+        for (agc, plane) in self.agcs.iter_mut().zip(&mut self.detected) {
+            for x in &mut plane[..m] {
+                *x = agc.next_sample(*x);
+            }
+        }
+        if self.channels() == 1 {
+            return self.audio[0].process(&self.detected[0][..m], output).1;
+        }
+        self.interleave(m, output)
+    }
+
+    /// Each channel through its audio stage, then frames [c0, c1, ...] into `output`.
+    fn interleave(&mut self, m: usize, output: &mut [f32]) -> usize {
+        let channels = self.channels();
+        let mut frames = usize::MAX;
+        for c in 0..channels {
+            let (_, p) = self.audio[c].process(&self.detected[c][..m], &mut self.stereo[c]);
+            frames = frames.min(p);
+        }
+        for (k, frame) in output[..channels * frames]
+            .chunks_exact_mut(channels)
+            .enumerate()
+        {
+            for (c, y) in frame.iter_mut().enumerate() {
+                *y = self.stereo[c][k];
+            }
+        }
+        channels * frames
+    }
+}
+
+impl<D: Detector> Block for Assembly<D> {
+    type Input = Complex32;
+    type Output = f32;
+
+    fn process(&mut self, input: &[Complex32], output: &mut [f32]) -> (usize, usize) {
+        let mut consumed = 0;
+        let mut produced = 0;
+        while consumed < input.len() {
+            let n = PIECE.min(input.len() - consumed);
+            if self.piece_bound(n) > output.len() - produced {
+                break;
+            }
+            let piece = &input[consumed..consumed + n];
+            produced += self.process_piece(piece, &mut output[produced..]);
+            consumed += n;
+        }
+        (consumed, produced)
+    }
+
+    fn max_output_len(&self, input_len: usize) -> usize {
+        pieces_bound(input_len, PIECE, |n| self.piece_bound(n))
+    }
+
+    fn rate_ratio(&self) -> f64 {
+        self.channels() as f64 * self.settings.audio_rate / self.settings.input_rate
+    }
+
+    fn delay(&self) -> f64 {
+        let guards: f64 = self.guards.iter().map(|g| g.delay()).sum();
+        let after_front = self.detector.delay() + self.audio[0].delay();
+        guards + self.front.delay() + after_front / self.front.rate_ratio()
+    }
+
+    fn reset(&mut self) {
+        for guard in &mut self.guards {
+            guard.reset();
+        }
+        self.front.reset();
+        self.detector.reset();
+        for agc in &mut self.agcs {
+            agc.reset();
+        }
+        for audio in &mut self.audio {
+            audio.reset();
+        }
+    }
+}
+
+impl<D: Detector> Receiver for Assembly<D> {
+    fn audio_channels(&self) -> usize {
+        self.channels()
+    }
+
+    fn audio_rate(&self) -> f64 {
+        self.settings.audio_rate
+    }
+
+    fn bandwidth_hz(&self) -> f64 {
+        self.settings.bandwidth_hz
+    }
+
+    fn offset_hz(&self) -> f64 {
+        self.front.offset_hz()
+    }
+
+    fn set_offset(&mut self, offset_hz: f64) -> Result<()> {
+        let step = offset_hz - self.front.offset_hz();
+        self.front.set_offset(offset_hz)?;
+        self.detector.retuned(step);
+        Ok(())
+    }
+
+    fn measurements(&self) -> Measurements {
+        let mut m = Measurements::default();
+        self.detector.measure(self.front.as_ref(), &mut m);
+        m
+    }
+}
