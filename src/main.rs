@@ -267,6 +267,14 @@ fn flag_for(parameter: &str) -> Option<&'static str> {
         "agc.attack_s" | "agc.decay_s" | "agc.hang_s" | "agc.target" => "--agc",
         "detectors" => "--detectors",
         "mode" => "--mode",
+        "channel" => "--channel",
+        "format" => "--format",
+        "trials" => "--trials",
+        "axis" => "--axis",
+        "seconds" => "--seconds",
+        "tone_hz" => "--tone",
+        "mu" => "--mu",
+        "range_db" | "input_db" => "--from/--to/--step",
         _ => return None,
     })
 }

@@ -75,6 +75,40 @@ pub trait Block {
     }
 }
 
+/// A block that works through its input in pieces of at most [`PieceWise::PIECE_LEN`] inputs,
+/// each run through every internal stage before the next: its [`Block::process`] is
+/// [`PieceWise::process_pieces`].
+pub trait PieceWise {
+    /// Input sample type.
+    type In: Copy;
+    /// Output sample type.
+    type Out: Copy;
+    /// The largest piece.
+    const PIECE_LEN: usize = PIECE;
+
+    /// Most outputs the next piece of `n ≤ PIECE_LEN` inputs can give, from the current state.
+    fn piece_output_len(&self, n: usize) -> usize;
+
+    /// Runs one piece through every stage; returns the outputs written.
+    fn process_piece(&mut self, input: &[Self::In], output: &mut [Self::Out]) -> usize;
+
+    /// As many whole pieces as the output has room for; returns `(consumed, produced)`.
+    fn process_pieces(&mut self, input: &[Self::In], output: &mut [Self::Out]) -> (usize, usize) {
+        let mut consumed = 0;
+        let mut produced = 0;
+        while consumed < input.len() {
+            let n = Self::PIECE_LEN.min(input.len() - consumed);
+            if self.piece_output_len(n) > output.len() - produced {
+                break;
+            }
+            let piece = &input[consumed..consumed + n];
+            produced += self.process_piece(piece, &mut output[produced..]);
+            consumed += n;
+        }
+        (consumed, produced)
+    }
+}
+
 /// Zeros fed per call by [`Block::flush`].
 const FLUSH_PIECE: usize = 256;
 

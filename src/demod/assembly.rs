@@ -8,7 +8,7 @@ use super::front_end::{ChannelFrontEnd, FrontEnd, FrontEndConfig};
 use super::iq_guard::IqBalanceGuard;
 use super::receiver::{Measurements, Receiver};
 use super::Mode;
-use crate::block::{pieces_bound, Block, PIECE};
+use crate::block::{pieces_bound, Block, PieceWise, PIECE};
 use crate::dsp::Agc;
 use crate::{Complex32, Result};
 
@@ -61,12 +61,7 @@ impl<D: ModeDetector> Assembly<D> {
     /// the tuner front end, with IQ balancing ahead of it when asked for.
     pub fn new(mode: Mode, config: &ReceiverConfig) -> Result<Self> {
         let settings = mode.spec().resolve(config)?;
-        let front = ChannelFrontEnd::new(FrontEndConfig {
-            input_rate: settings.input_rate,
-            offset_hz: settings.offset_hz,
-            channel_hz: settings.bandwidth_hz,
-            min_detection_rate: settings.audio_rate,
-        })?;
+        let front = ChannelFrontEnd::new(FrontEndConfig::for_mode(&settings))?;
         let mut guards: Vec<Guard> = Vec::new();
         if settings.iq_balance {
             guards.push(Box::new(IqBalanceGuard::new(settings.input_rate)?));
@@ -138,10 +133,6 @@ impl<D: Detector> Assembly<D> {
         self.front.as_ref()
     }
 
-    fn piece_bound(&self, n: usize) -> usize {
-        self.channels() * self.audio[0].max_output_len(self.front.max_output_len(n))
-    }
-
     fn channels(&self) -> usize {
         self.audio.len()
     }
@@ -164,28 +155,6 @@ impl<D: Detector> Assembly<D> {
         at
     }
 
-    /// One piece of at most [`PIECE`] inputs through every stage; returns the outputs written.
-    fn process_piece(&mut self, input: &[Complex32], output: &mut [f32]) -> usize {
-        let guarded = self.guard(input);
-        let n = input.len();
-        let front_input = match guarded {
-            None => input,
-            Some(k) => &self.guarded[k][..n],
-        };
-        let (_, m) = self.front.process(front_input, &mut self.channel);
-        self.detector
-            .detect(&mut self.channel[..m], &mut self.detected);
-        for (agc, plane) in self.agcs.iter_mut().zip(&mut self.detected) {
-            for x in &mut plane[..m] {
-                *x = agc.next_sample(*x);
-            }
-        }
-        if self.channels() == 1 {
-            return self.audio[0].process(&self.detected[0][..m], output).1;
-        }
-        self.interleave(m, output)
-    }
-
     /// Each channel through its audio stage, then frames [c0, c1, ...] into `output`.
     fn interleave(&mut self, m: usize, output: &mut [f32]) -> usize {
         let channels = self.channels();
@@ -206,27 +175,46 @@ impl<D: Detector> Assembly<D> {
     }
 }
 
+impl<D: Detector> PieceWise for Assembly<D> {
+    type In = Complex32;
+    type Out = f32;
+
+    fn piece_output_len(&self, n: usize) -> usize {
+        self.channels() * self.audio[0].max_output_len(self.front.max_output_len(n))
+    }
+
+    fn process_piece(&mut self, input: &[Complex32], output: &mut [f32]) -> usize {
+        let guarded = self.guard(input);
+        let n = input.len();
+        let front_input = match guarded {
+            None => input,
+            Some(k) => &self.guarded[k][..n],
+        };
+        let (_, m) = self.front.process(front_input, &mut self.channel);
+        self.detector
+            .detect(&mut self.channel[..m], &mut self.detected);
+        for (agc, plane) in self.agcs.iter_mut().zip(&mut self.detected) {
+            for x in &mut plane[..m] {
+                *x = agc.next_sample(*x);
+            }
+        }
+        if self.channels() == 1 {
+            return self.audio[0].process(&self.detected[0][..m], output).1;
+        }
+        self.interleave(m, output)
+    }
+}
+
 impl<D: Detector> Block for Assembly<D> {
     type Input = Complex32;
     type Output = f32;
 
     fn process(&mut self, input: &[Complex32], output: &mut [f32]) -> (usize, usize) {
-        let mut consumed = 0;
-        let mut produced = 0;
-        while consumed < input.len() {
-            let n = PIECE.min(input.len() - consumed);
-            if self.piece_bound(n) > output.len() - produced {
-                break;
-            }
-            let piece = &input[consumed..consumed + n];
-            produced += self.process_piece(piece, &mut output[produced..]);
-            consumed += n;
-        }
-        (consumed, produced)
+        self.process_pieces(input, output)
     }
 
     fn max_output_len(&self, input_len: usize) -> usize {
-        pieces_bound(input_len, PIECE, |n| self.piece_bound(n))
+        pieces_bound(input_len, PIECE, |n| self.piece_output_len(n))
     }
 
     fn rate_ratio(&self) -> f64 {

@@ -8,6 +8,8 @@
 use super::Mode;
 use crate::dsp::AgcSettings;
 pub use crate::sync::LoopSettings;
+use crate::sync::PllConfig;
+use crate::{Error, Result};
 use serde::Serialize;
 
 /// The audio rate when none is given, 48 kHz (common practice, no source).
@@ -137,4 +139,24 @@ pub struct ModeSettings {
     pub vestige_hz: Option<f64>,
     /// Blind IQ-imbalance correction ahead of the front end.
     pub iq_balance: bool,
+}
+
+impl ModeSettings {
+    /// The carrier loop's design at the detection rate `rate`, from the resolved loop
+    /// bandwidth and damping; the loop itself validates the values.
+    pub fn loop_config(&self, rate: f64) -> Result<PllConfig> {
+        let loop_bandwidth_hz = self.loop_bandwidth_hz.ok_or_else(|| {
+            Error::parameter(
+                "loop_bandwidth_hz",
+                "none",
+                format!("{} has no loop", self.mode),
+            )
+        })?;
+        Ok(PllConfig {
+            sample_rate: rate,
+            loop_bandwidth_hz,
+            damping: self.loop_damping,
+            initial_frequency_hz: 0.0,
+        })
+    }
 }

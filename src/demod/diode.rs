@@ -19,7 +19,7 @@
 //! range is 1/f_c ≪ RC ≪ 1/W, and tone AM of index μ at ω_m is free of diagonal clipping for
 //! RC ≤ √(1−μ²)/(μ·ω_m) (Haykin, ch. 2, problem on the envelope detector; Carlson).
 
-use crate::block::Block;
+use crate::block::{Block, PieceWise};
 use crate::dsp::{design_lowpass, LowpassSpec};
 use crate::dsp::{DecimationPlan, MultiStageDecimator, RationalResampler};
 use crate::{Complex32, Error, Result};
@@ -220,13 +220,6 @@ impl DiodeDetector {
         }
         n
     }
-
-    /// Detects one piece of at most [`PIECE`] channel samples whose outputs fit.
-    fn process_piece(&mut self, input: &[Complex32], output: &mut [f32]) -> usize {
-        let (_, up) = self.interpolator.process(input, &mut self.upsampled);
-        let n = self.rectify(up);
-        self.decimator.process(&self.passband[..n], output).1
-    }
 }
 
 /// One step of the ideal diode into the capacitor: charge to the input if it is higher, else
@@ -249,24 +242,30 @@ pub fn capacitor_voltage(x: &[f32], rc_s: f64, rate: f64) -> Vec<f32> {
         .collect()
 }
 
+impl PieceWise for DiodeDetector {
+    type In = Complex32;
+    type Out = f32;
+    const PIECE_LEN: usize = PIECE;
+
+    /// The interpolator gives exactly L outputs per input.
+    fn piece_output_len(&self, n: usize) -> usize {
+        self.decimator.output_len(n * self.config.oversample)
+    }
+
+    /// Detects one piece of at most [`PIECE`] channel samples whose outputs fit.
+    fn process_piece(&mut self, input: &[Complex32], output: &mut [f32]) -> usize {
+        let (_, up) = self.interpolator.process(input, &mut self.upsampled);
+        let n = self.rectify(up);
+        self.decimator.process(&self.passband[..n], output).1
+    }
+}
+
 impl Block for DiodeDetector {
     type Input = Complex32;
     type Output = f32;
 
     fn process(&mut self, input: &[Complex32], output: &mut [f32]) -> (usize, usize) {
-        let mut consumed = 0;
-        let mut produced = 0;
-        while consumed < input.len() {
-            let n = PIECE.min(input.len() - consumed);
-            // The interpolator gives exactly L outputs per input.
-            if self.decimator.output_len(n * self.config.oversample) > output.len() - produced {
-                break;
-            }
-            let piece = &input[consumed..consumed + n];
-            produced += self.process_piece(piece, &mut output[produced..]);
-            consumed += n;
-        }
-        (consumed, produced)
+        self.process_pieces(input, output)
     }
 
     fn max_output_len(&self, input_len: usize) -> usize {

@@ -17,8 +17,8 @@ use super::detector::{Detector, DetectorContext, ModeDetector};
 use super::front_end::FrontEnd;
 use super::receiver::Measurements;
 use crate::block::Block;
-use crate::sync::{CarrierAcquisition, CarrierKind, CostasLoop, PllConfig};
-use crate::{Complex32, Error, Result};
+use crate::sync::{CarrierAcquisition, CarrierKind, CostasLoop};
+use crate::{Complex32, Result};
 
 /// The suppressed carrier is searched for within this far of the tuned frequency, at most
 /// (half the bandwidth when that is smaller; common practice, no source).
@@ -40,15 +40,7 @@ pub struct DsbDetector {
 impl ModeDetector for DsbDetector {
     fn build(settings: &ModeSettings, context: &DetectorContext) -> Result<Self> {
         let rate = context.detection_rate;
-        let loop_bandwidth_hz = settings
-            .loop_bandwidth_hz
-            .ok_or_else(|| Error::parameter("loop_bandwidth_hz", "none", "dsb needs a loop"))?;
-        let costas = CostasLoop::new(PllConfig {
-            sample_rate: rate,
-            loop_bandwidth_hz,
-            damping: settings.loop_damping,
-            initial_frequency_hz: 0.0,
-        })?;
+        let costas = CostasLoop::new(settings.loop_config(rate)?)?;
         let search = CARRIER_SEARCH_HZ.min(0.5 * settings.bandwidth_hz);
         Ok(DsbDetector {
             carrier: CarrierAcquisition::new(costas, CarrierKind::Suppressed, search, rate)?,

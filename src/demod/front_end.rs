@@ -2,7 +2,8 @@
 //! every mode uses today ([`ChannelFrontEnd`]): centre-spike removal, tuning, decimation to the
 //! detection rate, the channel filter, and the spectrum that carrier and CNR are measured on.
 
-use crate::block::{pieces_bound, Block, PIECE};
+use super::config::ModeSettings;
+use crate::block::{pieces_bound, Block, PieceWise, PIECE};
 use crate::dsp::{
     design_lowpass, DcBlocker, DecimationPlan, Fir, LowpassSpec, Mixer, MultiStageDecimator,
 };
@@ -61,6 +62,19 @@ pub struct FrontEndConfig {
     pub channel_hz: f64,
     /// Lowest acceptable detection rate (usually the audio rate).
     pub min_detection_rate: f64,
+}
+
+impl FrontEndConfig {
+    /// The tuner for a mode's settings: the channel filter passes ±bandwidth, the detection
+    /// rate is at least the audio rate.
+    pub fn for_mode(settings: &ModeSettings) -> Self {
+        FrontEndConfig {
+            input_rate: settings.input_rate,
+            offset_hz: settings.offset_hz,
+            channel_hz: settings.bandwidth_hz,
+            min_detection_rate: settings.audio_rate,
+        }
+    }
 }
 
 /// Tune, decimate and channel-filter: complex baseband at the input rate in, the channel at the
@@ -126,6 +140,15 @@ impl ChannelFrontEnd {
     pub fn output_len(&self, input_len: usize) -> usize {
         self.decimator.output_len(input_len)
     }
+}
+
+impl PieceWise for ChannelFrontEnd {
+    type In = Complex32;
+    type Out = Complex32;
+
+    fn piece_output_len(&self, n: usize) -> usize {
+        self.output_len(n)
+    }
 
     fn process_piece(&mut self, input: &[Complex32], output: &mut [Complex32]) -> usize {
         let input = match self.spike.as_mut() {
@@ -149,17 +172,7 @@ impl Block for ChannelFrontEnd {
     type Output = Complex32;
 
     fn process(&mut self, input: &[Complex32], output: &mut [Complex32]) -> (usize, usize) {
-        let mut consumed = 0;
-        let mut produced = 0;
-        while consumed < input.len() {
-            let n = PIECE.min(input.len() - consumed);
-            if self.output_len(n) > output.len() - produced {
-                break;
-            }
-            produced += self.process_piece(&input[consumed..consumed + n], &mut output[produced..]);
-            consumed += n;
-        }
-        (consumed, produced)
+        self.process_pieces(input, output)
     }
 
     fn max_output_len(&self, input_len: usize) -> usize {

@@ -22,8 +22,8 @@ use super::receiver::Measurements;
 use super::sideband_selector::SidebandSelector;
 use crate::block::Block;
 use crate::measure::ModulationMeter;
-use crate::sync::{CarrierAcquisition, CarrierKind, CarrierPll, PllConfig};
-use crate::{Complex32, Error, Result};
+use crate::sync::{CarrierAcquisition, CarrierKind, CarrierPll};
+use crate::{Complex32, Result};
 
 /// The carrier is searched for within this far of the tuned frequency, at most (half the
 /// bandwidth when that is smaller; common practice, no source).
@@ -60,18 +60,11 @@ impl ModeDetector for SamDetector {
     /// Bad loop settings are errors naming the parameter.
     fn build(settings: &ModeSettings, context: &DetectorContext) -> Result<Self> {
         let rate = context.detection_rate;
-        let loop_bandwidth_hz = settings
-            .loop_bandwidth_hz
-            .ok_or_else(|| Error::parameter("loop_bandwidth_hz", "none", "sam needs a loop"))?;
-        let pll = CarrierPll::new(PllConfig {
-            sample_rate: rate,
-            loop_bandwidth_hz,
-            damping: settings.loop_damping,
-            initial_frequency_hz: 0.0,
-        })?;
+        let pll = CarrierPll::new(settings.loop_config(rate)?)?;
         let search = search_hz(settings.bandwidth_hz);
         let carrier = CarrierAcquisition::new(pll, CarrierKind::Line, search, rate)?;
-        let lock_allowance = LOCK_ALLOWANCE_TIME_CONSTANTS * rate / loop_bandwidth_hz;
+        let lock_allowance = LOCK_ALLOWANCE_TIME_CONSTANTS * rate
+            / carrier.carrier_loop().config().loop_bandwidth_hz;
         let mid = context.max_piece;
         Ok(SamDetector {
             selector: settings

@@ -223,7 +223,7 @@ pub(crate) fn check_rate_parameter(rate: f64) -> Result<f64> {
         Ok(rate)
     } else {
         Err(Error::parameter(
-            "--rate",
+            "sample_rate",
             rate,
             "sample rate must be positive and finite",
         ))

@@ -37,7 +37,7 @@ pub fn open_input(path: &Path, options: &InputOptions) -> Result<Box<dyn IqSourc
     }
     if options.channel != 0 {
         return Err(Error::parameter(
-            "--channel",
+            "channel",
             options.channel,
             "raw input holds one channel (use 0)",
         ));
@@ -60,14 +60,14 @@ pub fn open_input(path: &Path, options: &InputOptions) -> Result<Box<dyn IqSourc
 fn open_wav(path: &Path, options: &InputOptions) -> Result<Box<dyn IqSource>> {
     if options.channel != 0 {
         return Err(Error::parameter(
-            "--channel",
+            "channel",
             options.channel,
             "an IQ WAV file holds one complex channel (use 0)",
         ));
     }
     if let Some(format) = options.format {
         return Err(Error::parameter(
-            "--format",
+            "format",
             format.name(),
             "a WAV file states its own sample format",
         ));
@@ -85,7 +85,7 @@ fn has_extension(path: &Path, ext: &str) -> bool {
 fn check_format(format: Option<SampleFormat>, datatype: &str) -> Result<()> {
     match format {
         Some(f) if f.name() != datatype => Err(Error::parameter(
-            "--format",
+            "format",
             f.name(),
             format!("the recording says core:datatype {datatype}"),
         )),

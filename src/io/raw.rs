@@ -113,7 +113,10 @@ mod tests {
             let err = RawSource::from_reader(empty(), Path::new("-"), SampleFormat::Cu8, rate);
             assert!(matches!(
                 err,
-                Err(Error::InvalidParameter { name: "--rate", .. })
+                Err(Error::InvalidParameter {
+                    name: "sample_rate",
+                    ..
+                })
             ));
         }
     }

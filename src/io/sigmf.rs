@@ -230,7 +230,7 @@ fn resolve_rate(
             let notes = match file_rate {
                 Some(f) if f != rate => {
                     vec![format!(
-                        "--rate {rate} Hz overrides core:sample_rate {f} Hz"
+                        "the given rate {rate} Hz overrides core:sample_rate {f} Hz"
                     )]
                 }
                 _ => Vec::new(),
@@ -542,12 +542,15 @@ mod tests {
         assert_eq!(rate, 2e6);
         assert_eq!(
             notes,
-            ["--rate 2000000 Hz overrides core:sample_rate 1000000 Hz"]
+            ["the given rate 2000000 Hz overrides core:sample_rate 1000000 Hz"]
         );
         assert!(resolve_rate(p, Some(2e6), Some(2e6)).unwrap().1.is_empty());
         assert!(matches!(
             resolve_rate(p, None, Some(-1.0)),
-            Err(Error::InvalidParameter { name: "--rate", .. })
+            Err(Error::InvalidParameter {
+                name: "sample_rate",
+                ..
+            })
         ));
         assert!(matches!(
             resolve_rate(p, Some(0.0), None),

@@ -118,7 +118,7 @@ fn resolve_rate(header: f64, explicit: Option<f64>, path: &Path) -> Result<(f64,
             check_rate_parameter(rate)?;
             let notes = if rate != header {
                 vec![format!(
-                    "--rate {rate} Hz overrides the WAV header's {header} Hz"
+                    "the given rate {rate} Hz overrides the WAV header's {header} Hz"
                 )]
             } else {
                 Vec::new()

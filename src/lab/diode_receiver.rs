@@ -20,12 +20,7 @@ pub type DiodeReceiver = Assembly<DiodeEnvelope>;
 /// The diode receiver for `config` (the `am` mode's defaults) with time constant `rc_s`.
 pub fn diode_receiver(config: &ReceiverConfig, rc_s: f64) -> Result<DiodeReceiver> {
     let settings = Mode::Am.spec().resolve(config)?;
-    let front = ChannelFrontEnd::new(FrontEndConfig {
-        input_rate: settings.input_rate,
-        offset_hz: settings.offset_hz,
-        channel_hz: settings.bandwidth_hz,
-        min_detection_rate: settings.audio_rate,
-    })?;
+    let front = ChannelFrontEnd::new(FrontEndConfig::for_mode(&settings))?;
     Assembly::with_front_end(settings, Vec::new(), Box::new(front), |s, c| {
         Ok(DiodeEnvelope {
             diode: DiodeDetector::new(DiodeConfig::new(c.detection_rate, s.bandwidth_hz, rc_s))?,

@@ -34,7 +34,7 @@ impl std::str::FromStr for Axis {
         match s.to_ascii_lowercase().as_str() {
             "snr" => Ok(Axis::Snr),
             "cnr" => Ok(Axis::Cnr),
-            _ => Err(Error::parameter("--axis", s, "must be snr or cnr")),
+            _ => Err(Error::parameter("axis", s, "must be snr or cnr")),
         }
     }
 }
@@ -74,7 +74,7 @@ impl SweepSpec {
         let ok = start.is_finite() && stop.is_finite() && step.is_finite() && step > 0.0;
         if !ok || stop < start || (stop - start) / step > 10_000.0 {
             return Err(Error::parameter(
-                "--range",
+                "range_db",
                 format!("{start}:{stop}:{step}"),
                 "needs start ≤ stop and a positive step, at most 10 000 points",
             ));
@@ -95,18 +95,18 @@ impl SweepSpec {
     pub fn validate(&self) -> Result<()> {
         self.trial.validate()?;
         if self.detectors.is_empty() {
-            return Err(Error::parameter("--detectors", "none", "name at least one"));
+            return Err(Error::parameter("detectors", "none", "name at least one"));
         }
         if self.input_db.is_empty() || self.input_db.iter().any(|x| !x.is_finite()) {
             return Err(Error::parameter(
-                "--range",
+                "input_db",
                 format!("{:?}", self.input_db),
                 "needs at least one finite point",
             ));
         }
         if !(1..=100_000).contains(&self.trials) {
             return Err(Error::parameter(
-                "--trials",
+                "trials",
                 self.trials,
                 "must be in 1..=100000",
             ));
@@ -114,7 +114,7 @@ impl SweepSpec {
         for d in &self.detectors {
             if self.axis == Axis::Cnr && !d.has_carrier() {
                 return Err(Error::parameter(
-                    "--axis",
+                    "axis",
                     "cnr",
                     format!("{d} has no carrier; use --axis snr"),
                 ));

@@ -64,25 +64,25 @@ impl TrialSettings {
                 Err(Error::parameter(name, v, "must be a positive number"))
             }
         };
-        positive("--seconds", self.seconds)?;
-        positive("--tone", self.tone_hz)?;
-        positive("--bandwidth", self.bandwidth_hz)?;
+        positive("seconds", self.seconds)?;
+        positive("tone_hz", self.tone_hz)?;
+        positive("bandwidth_hz", self.bandwidth_hz)?;
         if !(self.settle_s.is_finite() && self.settle_s >= 0.0) {
-            return Err(Error::parameter("--settle", self.settle_s, "must be ≥ 0 s"));
+            return Err(Error::parameter("settle_s", self.settle_s, "must be ≥ 0 s"));
         }
         if !(self.mu.is_finite() && self.mu > 0.0) {
-            return Err(Error::parameter("--mu", self.mu, "must be positive"));
+            return Err(Error::parameter("mu", self.mu, "must be positive"));
         }
         if self.tone_hz >= self.bandwidth_hz {
             return Err(Error::parameter(
-                "--tone",
+                "tone_hz",
                 self.tone_hz,
                 format!("must lie below the bandwidth ({} Hz)", self.bandwidth_hz),
             ));
         }
         if self.iq_rate * (self.seconds + self.settle_s) > 1e9 {
             return Err(Error::parameter(
-                "--seconds",
+                "seconds",
                 self.seconds,
                 "too long a trial",
             ));
