@@ -2,7 +2,7 @@
 
 use super::snr::{n0_from_cnr, n0_from_snr, noise_power};
 use crate::block::Block;
-use crate::synth::ComplexNoise;
+use crate::dsp::ComplexNoise;
 use crate::{Complex32, Result};
 
 /// Adds complex white Gaussian noise with E|w|² = N0·fs (see [`super::snr`]).

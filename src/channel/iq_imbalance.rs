@@ -1,14 +1,14 @@
 //! The front end's DC offset and IQ imbalance ([`IqImpairment`]) as a channel block.
 
+use super::impair::IqImpairment;
 use crate::block::Block;
-use crate::synth::IqImpairment;
 use crate::Complex32;
 
 /// Applies an [`IqImpairment`] sample by sample.
 ///
 /// ```
 /// use amrx::channel::IqImbalance;
-/// use amrx::synth::IqImpairment;
+/// use amrx::channel::IqImpairment;
 /// let block = IqImbalance::new(IqImpairment { gain_db: 0.5, ..Default::default() });
 /// ```
 #[derive(Debug, Clone, Copy)]
@@ -67,7 +67,7 @@ mod tests {
             .map(|n| Complex32::from_polar(1.0, std::f32::consts::TAU * 100.0 * n as f32 / 4096.0))
             .collect();
         let y = crate::block::process_to_vec(&mut IqImbalance::new(imp), &x);
-        let (want, image, _) = crate::synth::test_util::line_amplitudes(&y, 0.0, 100.0, fs);
+        let (want, image, _) = crate::dsp::test_util::line_amplitudes(&y, 0.0, 100.0, fs);
         let irr = 20.0 * (want / image).log10();
         assert!(
             (irr - 10.0 * imp.image_rejection_ratio().log10()).abs() < 0.1,

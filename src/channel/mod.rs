@@ -1,11 +1,12 @@
 //! The channel simulator: noise, frequency errors, phase noise, impulses, interference,
 //! HF multipath fading and cheap-receiver impairments, each a [`Block`](crate::block::Block)
-//! on complex baseband, seeded and chunk-invariant.
+//! on complex baseband, seeded and chunk-invariant. It builds on [`crate::dsp`] only; the
+//! scene generator and the interferer ([`crate::synth`]) sit above it.
 
 pub mod awgn;
 pub mod frequency_offset;
+pub mod impair;
 pub mod impulse_noise;
-pub mod interferer;
 pub mod iq_imbalance;
 pub mod phase_noise;
 pub mod quantizer;
@@ -15,8 +16,8 @@ pub mod watterson;
 
 pub use awgn::Awgn;
 pub use frequency_offset::FrequencyOffset;
+pub use impair::{quantize_cu8, IqImpairment};
 pub use impulse_noise::ImpulseNoise;
-pub use interferer::Interferer;
 pub use iq_imbalance::IqImbalance;
 pub use phase_noise::PhaseNoise;
 pub use quantizer::Cu8Quantizer;

@@ -59,7 +59,7 @@ mod tests {
 
     #[test]
     fn agrees_with_quantize_cu8_and_bounds_the_error() {
-        // Same bytes as synth::quantize_cu8; inside full scale the error is at most half a
+        // Same bytes as quantize_cu8; inside full scale the error is at most half a
         // step, 0.5/127.5.
         let x: Vec<Complex32> = (0..5000)
             .map(|n| {
@@ -71,7 +71,7 @@ mod tests {
             .collect();
         let y = crate::block::process_to_vec(&mut Cu8Quantizer::new(), &x);
         let mut bytes = Vec::new();
-        crate::synth::quantize_cu8(&x, &mut bytes);
+        crate::channel::quantize_cu8(&x, &mut bytes);
         for ((a, b), pair) in x.iter().zip(&y).zip(bytes.chunks(2)) {
             assert_eq!(*b, SampleFormat::Cu8.decode(pair));
             assert!(

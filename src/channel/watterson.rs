@@ -9,7 +9,7 @@
 
 use super::tap_gain::TapGain;
 use crate::block::Block;
-use crate::synth::Rotator;
+use crate::dsp::Rotator;
 use crate::{Complex32, Error, Result};
 use num_complex::Complex64;
 

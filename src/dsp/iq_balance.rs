@@ -105,8 +105,9 @@ impl Block for IqBalancer {
 mod tests {
     use super::*;
     use crate::block::{process_in_chunks, process_to_vec};
+    use crate::channel::IqImpairment;
+    use crate::dsp::ComplexNoise;
     use crate::measure::{find_carrier, PowerSpectrum};
-    use crate::synth::{ComplexNoise, IqImpairment};
 
     const FS: f64 = 240_000.0;
 

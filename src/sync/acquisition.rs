@@ -301,7 +301,7 @@ mod tests {
     const FS: f64 = 48_000.0;
 
     fn line(freq: f64, len: usize) -> Vec<Complex32> {
-        let mut noise = crate::synth::ComplexNoise::new(1e-3, 3);
+        let mut noise = crate::dsp::ComplexNoise::new(1e-3, 3);
         let mut x: Vec<Complex32> = (0..len)
             .map(|n| Complex32::from_polar(0.3, (TAU * freq * n as f64 / FS) as f32))
             .collect();
@@ -357,7 +357,7 @@ mod tests {
     fn leaves_the_loop_alone_on_noise_and_outside_the_range() {
         let mut acq = pll_acq();
         let mut x = vec![Complex32::default(); 30_000];
-        crate::synth::ComplexNoise::new(1.0, 8).add_to(&mut x);
+        crate::dsp::ComplexNoise::new(1.0, 8).add_to(&mut x);
         process_to_vec(&mut acq, &x);
         assert!(acq.decided());
         assert_eq!(acq.acquired_hz(), None);

@@ -5,8 +5,8 @@
 //! normalised) the modulation index is μ = k_a·max|m| = k_a.
 
 use super::params::{amplitude, modulation_index, to_c32};
-use super::rotator::Rotator;
 use crate::block::Block;
+use crate::dsp::Rotator;
 use crate::{Complex32, Result};
 
 /// Full-carrier AM: message samples in, complex baseband at the carrier offset out.

@@ -2,8 +2,8 @@
 //! (S. Haykin, Communication Systems, ch. 2, DSB-SC).
 
 use super::params::{amplitude, to_c32};
-use super::rotator::Rotator;
 use crate::block::Block;
+use crate::dsp::Rotator;
 use crate::{Complex32, Result};
 
 /// DSB-SC: message in, complex baseband at the carrier offset out; A is the peak for |m| = 1.

@@ -7,8 +7,8 @@
 
 use super::hilbert::AnalyticFilter;
 use super::params::{amplitude, carrier_amplitude, to_c32};
-use super::rotator::Rotator;
 use crate::block::Block;
+use crate::dsp::Rotator;
 use crate::{Complex32, Result};
 
 /// ISB modulator: `[lower, upper]` message pairs in, complex baseband at the offset out.
@@ -91,7 +91,7 @@ impl Block for IsbModulator {
 mod tests {
     use super::*;
     use crate::block::process_in_chunks;
-    use crate::synth::test_util::{cosine, line_amplitudes};
+    use crate::dsp::test_util::{cosine, line_amplitudes};
 
     #[test]
     fn each_message_lands_on_its_own_side() {

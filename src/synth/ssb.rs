@@ -13,8 +13,8 @@
 
 use super::hilbert::AnalyticFilter;
 use super::params::{amplitude, carrier_amplitude, to_c32};
-use super::rotator::Rotator;
 use crate::block::Block;
+use crate::dsp::Rotator;
 use crate::{Complex32, Result};
 
 /// Which sideband an SSB emission keeps.
@@ -118,7 +118,7 @@ impl Block for SsbModulator {
 mod tests {
     use super::*;
     use crate::block::process_in_chunks;
-    use crate::synth::test_util::line_amplitudes;
+    use crate::dsp::test_util::line_amplitudes;
 
     #[test]
     fn opposite_sideband_is_suppressed_by_60_db() {

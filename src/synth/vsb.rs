@@ -15,9 +15,9 @@
 
 use super::complex_fir::ComplexFir;
 use super::params::{amplitude, modulation_index, to_c32};
-use super::rotator::Rotator;
 use crate::block::Block;
 use crate::dsp::kaiser::{bessel_i0, kaiser_beta, kaiser_num_taps, MAX_TAPS};
+use crate::dsp::Rotator;
 use crate::{Complex32, Error, Result};
 use num_complex::Complex64;
 
@@ -179,7 +179,7 @@ impl Block for VsbModulator {
 mod tests {
     use super::*;
     use crate::block::process_in_chunks;
-    use crate::synth::test_util::{cosine, line_amplitudes};
+    use crate::dsp::test_util::{cosine, line_amplitudes};
 
     #[test]
     fn response_meets_the_vsb_condition() {

@@ -26,7 +26,7 @@ impl Interferer {
     /// for as long as the input lasts (start/stop times still apply).
     ///
     /// ```
-    /// use amrx::channel::Interferer;
+    /// use amrx::synth::Interferer;
     /// use amrx::synth::EmissionSpec;
     /// let spec: EmissionSpec = serde_json::from_str(r#"{"label":"adj","mode":"am","offset_hz":9000,
     ///   "level_db":-20,"mu":0.6,"message":{"type":"tone","frequency_hz":800}}"#).unwrap();
@@ -104,9 +104,9 @@ mod tests {
             &[4096],
         );
         let (_, _, carrier) =
-            crate::synth::test_util::line_amplitudes(&y[48_000..], 9000.0, 800.0, fs);
+            crate::dsp::test_util::line_amplitudes(&y[48_000..], 9000.0, 800.0, fs);
         assert!((carrier - 0.1).abs() < 1e-3, "{carrier}");
-        let (_, _, dc) = crate::synth::test_util::line_amplitudes(&y[48_000..], 0.0, 800.0, fs);
+        let (_, _, dc) = crate::dsp::test_util::line_amplitudes(&y[48_000..], 0.0, 800.0, fs);
         assert!((dc - 0.2).abs() < 1e-3, "{dc}");
         let xr: Vec<Complex32> = (0..6000)
             .map(|n| Complex32::new((n as f32 * 0.1).sin(), 0.3))
