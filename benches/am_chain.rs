@@ -3,9 +3,11 @@
 //! Reports input samples per second.
 
 use amrx::block::Block;
+use amrx::channel::quantize_cu8;
 use amrx::demod::{AmReceiver, Mode, ReceiverConfig};
+use amrx::dsp::ComplexNoise;
 use amrx::io::SampleFormat;
-use amrx::synth::{quantize_cu8, AmToneTransmitter, ComplexNoise};
+use amrx::synth::AmToneTransmitter;
 use amrx::Complex32;
 use criterion::{criterion_group, criterion_main, Criterion, Throughput};
 use std::hint::black_box;

@@ -3,9 +3,11 @@
 //! detection, AGC, DC removal, audio filter and resampling. Reports input samples per second.
 
 use amrx::block::Block;
+use amrx::channel::quantize_cu8;
 use amrx::demod::{DsbReceiver, Mode, ReceiverConfig, SamReceiver, Sideband};
+use amrx::dsp::ComplexNoise;
 use amrx::io::SampleFormat;
-use amrx::synth::{quantize_cu8, AmToneTransmitter, ComplexNoise};
+use amrx::synth::AmToneTransmitter;
 use amrx::Complex32;
 use criterion::{criterion_group, criterion_main, Criterion, Throughput};
 use std::f64::consts::TAU;

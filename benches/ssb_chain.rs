@@ -3,9 +3,10 @@
 //! filter and resampling. Reports input samples per second.
 
 use amrx::block::Block;
+use amrx::channel::quantize_cu8;
 use amrx::demod::{Mode, ReceiverConfig, SsbMethod, SsbReceiver};
+use amrx::dsp::ComplexNoise;
 use amrx::io::SampleFormat;
-use amrx::synth::{quantize_cu8, ComplexNoise};
 use amrx::Complex32;
 use criterion::{criterion_group, criterion_main, Criterion, Throughput};
 use std::f64::consts::TAU;

@@ -7,8 +7,9 @@
 
 use amrx::block::Block;
 use amrx::demod::{AmReceiver, Mode, Receiver, ReceiverConfig};
+use amrx::dsp::ComplexNoise;
 use amrx::measure::{estimate_tone_hz, sinad_db};
-use amrx::synth::{AmToneTransmitter, ComplexNoise};
+use amrx::synth::AmToneTransmitter;
 use amrx::Complex32;
 
 const RATE: f64 = 1_920_000.0;

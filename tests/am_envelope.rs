@@ -3,10 +3,10 @@
 mod common;
 
 use amrx::block::{process_in_chunks, process_to_vec};
+use amrx::channel::{quantize_cu8, IqImpairment};
 use amrx::demod::{AmReceiver, Mode, Receiver, ReceiverConfig};
 use amrx::io::SampleFormat;
 use amrx::measure::{estimate_tone_hz, sinad_db};
-use amrx::synth::{quantize_cu8, IqImpairment};
 use amrx::Complex32;
 use common::tone_am;
 

@@ -365,7 +365,7 @@ fn loop_option_on_a_mode_without_a_loop() {
 fn pure_noise_reports_no_lock() {
     let dir = scratch_dir("noise-only");
     let mut noise = vec![Complex32::default(); 240_000];
-    amrx::synth::ComplexNoise::new(0.01, 3).add_to(&mut noise);
+    amrx::dsp::ComplexNoise::new(0.01, 3).add_to(&mut noise);
     let rec = write_sigmf(&dir, "noise", SampleFormat::Cf32Le, 240_000.0, &noise);
     for mode in ["sam", "dsb", "vsb"] {
         let wav = dir.join(format!("{mode}.wav"));

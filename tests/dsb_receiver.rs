@@ -4,8 +4,8 @@
 use amrx::block::{process_in_chunks, process_to_vec};
 use amrx::demod::{build_receiver, DsbReceiver, Mode, Receiver, ReceiverConfig};
 use amrx::dsp::AgcSettings;
+use amrx::dsp::ComplexNoise;
 use amrx::measure::{sinad_db, snr_in_band_db};
-use amrx::synth::ComplexNoise;
 use amrx::Complex32;
 use rand::rngs::StdRng;
 use rand::{RngExt, SeedableRng};

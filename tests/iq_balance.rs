@@ -2,9 +2,10 @@
 //! put by a mismatched front end right on top of a weak one, is cancelled.
 
 use amrx::block::process_to_vec;
+use amrx::channel::IqImpairment;
 use amrx::demod::{build_receiver, Mode, ReceiverConfig};
 use amrx::measure::sinad_db;
-use amrx::synth::{AmToneTransmitter, IqImpairment};
+use amrx::synth::AmToneTransmitter;
 use amrx::Complex32;
 
 const RATE: f64 = 240_000.0;

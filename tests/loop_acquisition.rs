@@ -2,8 +2,9 @@
 //! the loop design, and the lock detector on noise.
 
 use amrx::block::{process_in_chunks, Block};
+use amrx::dsp::ComplexNoise;
 use amrx::sync::{CarrierAcquisition, CarrierKind, CarrierPll, CostasLoop, PllConfig};
-use amrx::synth::{AmToneTransmitter, ComplexNoise};
+use amrx::synth::AmToneTransmitter;
 use amrx::Complex32;
 use rand::rngs::StdRng;
 use rand::{RngExt, SeedableRng};

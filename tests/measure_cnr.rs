@@ -1,8 +1,9 @@
 //! CNR estimate against the CNR set by construction: C/(N0·2W) with C = A_c² and
 //! N0 = noise power / fs for complex white noise (S. Haykin, Communication Systems, ch. 2).
 
+use amrx::dsp::ComplexNoise;
 use amrx::measure::{estimate_cnr_db, estimate_noise_density, find_carrier, PowerSpectrum};
-use amrx::synth::{AmToneTransmitter, ComplexNoise};
+use amrx::synth::AmToneTransmitter;
 use amrx::Complex32;
 
 const MESSAGE_BANDWIDTH: f64 = 5000.0;

@@ -4,8 +4,9 @@
 use amrx::block::{process_in_chunks, process_to_vec};
 use amrx::demod::{build_receiver, Mode, Receiver, ReceiverConfig, SamReceiver, Sideband};
 use amrx::dsp::AgcSettings;
+use amrx::dsp::ComplexNoise;
 use amrx::measure::{fit_tone, sinad_db, snr_in_band_db};
-use amrx::synth::{AmToneTransmitter, ComplexNoise};
+use amrx::synth::AmToneTransmitter;
 use amrx::{Complex32, Error};
 use rand::rngs::StdRng;
 use rand::{RngExt, SeedableRng};

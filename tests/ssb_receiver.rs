@@ -4,8 +4,8 @@
 use amrx::block::process_to_vec;
 use amrx::demod::{Mode, Receiver, ReceiverConfig, Sideband, SsbMethod, SsbReceiver};
 use amrx::dsp::AgcSettings;
+use amrx::dsp::ComplexNoise;
 use amrx::measure::{estimate_tone_hz, fit_tone, sinad_db, snr_in_band_db};
-use amrx::synth::ComplexNoise;
 use amrx::Complex32;
 use std::f64::consts::TAU;
 

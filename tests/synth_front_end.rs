@@ -2,8 +2,9 @@
 //! carrier appears at −f_c at the level the image-rejection relation predicts, the DC offset
 //! appears at 0 Hz, and 8-bit quantisation keeps samples within half a step.
 
+use amrx::channel::{quantize_cu8, IqImpairment};
 use amrx::measure::{find_carrier, PowerSpectrum};
-use amrx::synth::{quantize_cu8, AmToneTransmitter, IqImpairment};
+use amrx::synth::AmToneTransmitter;
 use amrx::Complex32;
 
 #[test]

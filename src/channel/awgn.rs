@@ -1,8 +1,8 @@
 //! Additive white Gaussian noise set by density, channel SNR or CNR.
 
 use super::snr::{n0_from_cnr, n0_from_snr, noise_power};
-use crate::block::Block;
-use crate::synth::ComplexNoise;
+use crate::block::SampleBlock;
+use crate::dsp::ComplexNoise;
 use crate::{Complex32, Result};
 
 /// Adds complex white Gaussian noise with E|w|² = N0·fs (see [`super::snr`]).
@@ -67,30 +67,20 @@ impl Awgn {
     }
 }
 
-impl Block for Awgn {
-    type Input = Complex32;
-    type Output = Complex32;
+impl SampleBlock for Awgn {
+    type In = Complex32;
+    type Out = Complex32;
 
-    fn process(&mut self, input: &[Complex32], output: &mut [Complex32]) -> (usize, usize) {
-        let n = input.len().min(output.len());
-        output[..n].copy_from_slice(&input[..n]);
-        self.noise.add_to(&mut output[..n]);
-        (n, n)
+    #[inline]
+    fn next(&mut self, x: Complex32) -> Complex32 {
+        x + self.noise.sample()
     }
 
-    fn max_output_len(&self, input_len: usize) -> usize {
-        input_len
-    }
-
-    fn rate_ratio(&self) -> f64 {
-        1.0
-    }
-
-    fn delay(&self) -> f64 {
+    fn sample_delay(&self) -> f64 {
         0.0
     }
 
-    fn reset(&mut self) {
+    fn reset_state(&mut self) {
         let power = self.noise.power();
         self.noise = ComplexNoise::new(power, self.seed);
     }
@@ -99,7 +89,8 @@ impl Block for Awgn {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::block::process_in_chunks;
+    use crate::block::check::{check_block, BlockCheck};
+    use crate::block::Block;
 
     #[test]
     fn noise_envelope_exceeds_the_carrier_with_probability_e_minus_rho() {
@@ -133,16 +124,13 @@ mod tests {
         assert!((power / n as f64 / awgn.power() - 1.0).abs() < 2e-3);
     }
 
+    /// No delay probe: additive noise, memoryless (delay 0); reset restarts the seeded noise.
     #[test]
-    fn chunk_invariant_and_resettable() {
+    fn meets_the_block_contract() {
         let x: Vec<Complex32> = (0..5000)
             .map(|n| Complex32::new(n as f32 * 1e-3, 0.5))
             .collect();
         let make = || Awgn::from_snr(0.1, 10.0, 3000.0, 48e3, 5).unwrap();
-        crate::channel::assert_chunk_invariant(make, &x);
-        let mut a = make();
-        let first = process_in_chunks(&mut a, &x, &[5000]);
-        a.reset();
-        assert_eq!(process_in_chunks(&mut a, &x, &[5000]), first);
+        check_block(&BlockCheck::new(&make, &x));
     }
 }

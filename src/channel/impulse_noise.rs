@@ -7,7 +7,7 @@
 //! coverage of a Poisson process by intervals of length T), which the test checks; λT plays
 //! the part of Middleton's impulsive index A.
 
-use crate::block::Block;
+use crate::block::SampleBlock;
 use crate::{Complex32, Error, Result};
 use rand::{rngs::StdRng, RngExt, SeedableRng};
 use rand_distr::{Distribution, StandardNormal};
@@ -86,7 +86,7 @@ impl ImpulseNoise {
     }
 
     #[inline]
-    fn next(&mut self, x: Complex32) -> Complex32 {
+    fn add_burst(&mut self, x: Complex32) -> Complex32 {
         // Arrivals in [n, n+1) start a burst covering samples n .. n+L−1.
         while self.next_arrival < (self.position + 1) as f64 {
             self.busy_until = self.busy_until.max(self.position + self.burst_len);
@@ -104,31 +104,20 @@ impl ImpulseNoise {
     }
 }
 
-impl Block for ImpulseNoise {
-    type Input = Complex32;
-    type Output = Complex32;
+impl SampleBlock for ImpulseNoise {
+    type In = Complex32;
+    type Out = Complex32;
 
-    fn process(&mut self, input: &[Complex32], output: &mut [Complex32]) -> (usize, usize) {
-        let n = input.len().min(output.len());
-        for (y, x) in output.iter_mut().zip(input).take(n) {
-            *y = self.next(*x);
-        }
-        (n, n)
+    #[inline]
+    fn next(&mut self, x: Complex32) -> Complex32 {
+        self.add_burst(x)
     }
 
-    fn max_output_len(&self, input_len: usize) -> usize {
-        input_len
-    }
-
-    fn rate_ratio(&self) -> f64 {
-        1.0
-    }
-
-    fn delay(&self) -> f64 {
+    fn sample_delay(&self) -> f64 {
         0.0
     }
 
-    fn reset(&mut self) {
+    fn reset_state(&mut self) {
         self.rng = StdRng::seed_from_u64(self.seed);
         self.position = 0;
         self.busy_until = 0;
@@ -161,12 +150,15 @@ mod tests {
         );
         assert!((busy - want).abs() < 0.01);
         assert!((power / (2.0 * want) - 1.0).abs() < 0.06);
-        let xr: Vec<Complex32> = (0..6000)
+    }
+
+    /// No delay probe: additive bursts (memoryless, delay 0).
+    #[test]
+    fn meets_the_block_contract() {
+        let x: Vec<Complex32> = (0..6000)
             .map(|n| Complex32::new((n as f32 * 0.1).sin(), 0.3))
             .collect();
-        crate::channel::assert_chunk_invariant(
-            || ImpulseNoise::new(300.0, 1e-3, 1.0, fs, 4).unwrap(),
-            &xr,
-        );
+        let make = || ImpulseNoise::new(300.0, 1e-3, 1.0, 10e3, 4).unwrap();
+        crate::block::check::check_block(&crate::block::check::BlockCheck::new(&make, &x));
     }
 }

@@ -6,7 +6,7 @@
 //! C. H. Henry, "Theory of the linewidth of semiconductor lasers", IEEE J. Quantum Electron.,
 //! 1982; from memory).
 
-use crate::block::Block;
+use crate::block::SampleBlock;
 use crate::{Complex32, Error, Result};
 use num_complex::Complex64;
 use rand::{rngs::StdRng, SeedableRng};
@@ -55,35 +55,24 @@ impl PhaseNoise {
     }
 }
 
-impl Block for PhaseNoise {
-    type Input = Complex32;
-    type Output = Complex32;
+impl SampleBlock for PhaseNoise {
+    type In = Complex32;
+    type Out = Complex32;
 
-    fn process(&mut self, input: &[Complex32], output: &mut [Complex32]) -> (usize, usize) {
-        let n = input.len().min(output.len());
-        for (y, x) in output.iter_mut().zip(input).take(n) {
-            let v = Complex64::new(f64::from(x.re), f64::from(x.im))
-                * Complex64::from_polar(1.0, self.phase);
-            *y = Complex32::new(v.re as f32, v.im as f32);
-            self.phase =
-                (self.phase + self.step.sample(&mut self.rng)).rem_euclid(std::f64::consts::TAU);
-        }
-        (n, n)
+    #[inline]
+    fn next(&mut self, x: Complex32) -> Complex32 {
+        let v = Complex64::new(f64::from(x.re), f64::from(x.im))
+            * Complex64::from_polar(1.0, self.phase);
+        self.phase =
+            (self.phase + self.step.sample(&mut self.rng)).rem_euclid(std::f64::consts::TAU);
+        Complex32::new(v.re as f32, v.im as f32)
     }
 
-    fn max_output_len(&self, input_len: usize) -> usize {
-        input_len
-    }
-
-    fn rate_ratio(&self) -> f64 {
-        1.0
-    }
-
-    fn delay(&self) -> f64 {
+    fn sample_delay(&self) -> f64 {
         0.0
     }
 
-    fn reset(&mut self) {
+    fn reset_state(&mut self) {
         self.rng = StdRng::seed_from_u64(self.seed);
         self.phase = 0.0;
     }
@@ -118,9 +107,15 @@ mod tests {
                 "lag {k}: {r}"
             );
         }
-        let xr: Vec<Complex32> = (0..4000)
+    }
+
+    /// No delay probe: a random phase walk (memoryless, delay 0).
+    #[test]
+    fn meets_the_block_contract() {
+        let x: Vec<Complex32> = (0..4000)
             .map(|n| Complex32::new((n as f32 * 0.1).sin(), 0.3))
             .collect();
-        crate::channel::assert_chunk_invariant(|| PhaseNoise::new(lw, fs, 8).unwrap(), &xr);
+        let make = || PhaseNoise::new(20.0, 10e3, 8).unwrap();
+        crate::block::check::check_block(&crate::block::check::BlockCheck::new(&make, &x));
     }
 }

@@ -1,6 +1,6 @@
 //! 8-bit receiver quantisation as a channel block: samples snapped to the cu8 grid.
 
-use crate::block::Block;
+use crate::block::SampleBlock;
 use crate::io::SampleFormat;
 use crate::Complex32;
 
@@ -24,33 +24,22 @@ impl Cu8Quantizer {
     }
 }
 
-impl Block for Cu8Quantizer {
-    type Input = Complex32;
-    type Output = Complex32;
+impl SampleBlock for Cu8Quantizer {
+    type In = Complex32;
+    type Out = Complex32;
 
-    fn process(&mut self, input: &[Complex32], output: &mut [Complex32]) -> (usize, usize) {
-        let n = input.len().min(output.len());
+    #[inline]
+    fn next(&mut self, x: Complex32) -> Complex32 {
         let mut bytes = [0u8; 2];
-        for (y, x) in output.iter_mut().zip(input).take(n) {
-            SampleFormat::Cu8.encode(*x, &mut bytes);
-            *y = SampleFormat::Cu8.decode(&bytes);
-        }
-        (n, n)
+        SampleFormat::Cu8.encode(x, &mut bytes);
+        SampleFormat::Cu8.decode(&bytes)
     }
 
-    fn max_output_len(&self, input_len: usize) -> usize {
-        input_len
-    }
-
-    fn rate_ratio(&self) -> f64 {
-        1.0
-    }
-
-    fn delay(&self) -> f64 {
+    fn sample_delay(&self) -> f64 {
         0.0
     }
 
-    fn reset(&mut self) {}
+    fn reset_state(&mut self) {}
 }
 
 #[cfg(test)]
@@ -59,7 +48,7 @@ mod tests {
 
     #[test]
     fn agrees_with_quantize_cu8_and_bounds_the_error() {
-        // Same bytes as synth::quantize_cu8; inside full scale the error is at most half a
+        // Same bytes as quantize_cu8; inside full scale the error is at most half a
         // step, 0.5/127.5.
         let x: Vec<Complex32> = (0..5000)
             .map(|n| {
@@ -71,13 +60,22 @@ mod tests {
             .collect();
         let y = crate::block::process_to_vec(&mut Cu8Quantizer::new(), &x);
         let mut bytes = Vec::new();
-        crate::synth::quantize_cu8(&x, &mut bytes);
+        crate::channel::quantize_cu8(&x, &mut bytes);
         for ((a, b), pair) in x.iter().zip(&y).zip(bytes.chunks(2)) {
             assert_eq!(*b, SampleFormat::Cu8.decode(pair));
             assert!(
                 (a - b).re.abs() <= 0.5 / 127.5 + 1e-6 && (a - b).im.abs() <= 0.5 / 127.5 + 1e-6
             );
         }
-        crate::channel::assert_chunk_invariant(Cu8Quantizer::new, &x);
+    }
+
+    /// No delay probe: memoryless and not linear (delay 0).
+    #[test]
+    fn meets_the_block_contract() {
+        let x: Vec<Complex32> = (0..3000)
+            .map(|n| Complex32::new((n as f32 * 0.1).sin(), 0.3))
+            .collect();
+        let make = Cu8Quantizer::new;
+        crate::block::check::check_block(&crate::block::check::BlockCheck::new(&make, &x));
     }
 }

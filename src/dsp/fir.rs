@@ -1,14 +1,11 @@
 //! Direct-form FIR filter with real taps for real or complex samples.
 
-use crate::block::Block;
+use crate::block::{Block, PIECE};
 use crate::dsp::dot::Taps;
 use crate::dsp::history::History;
 use crate::dsp::kaiser::{design_lowpass, LowpassSpec};
 use crate::sample::Sample;
 use crate::{Error, Result};
-
-/// New samples taken per history refill (the history holds taps − 1 + this).
-const CHUNK: usize = 2048;
 
 /// An FIR filter, one output per input: `y[n] = Σ h[k]·x[n−k]`, starting from zeroed history.
 /// Non-finite input samples are treated as zero.
@@ -43,7 +40,7 @@ impl<T: Sample> Fir<T> {
         validate_taps(taps)?;
         Ok(Fir {
             taps: Taps::new(taps),
-            history: History::new(taps.len(), CHUNK),
+            history: History::new(taps.len(), PIECE),
         })
     }
 
@@ -105,8 +102,9 @@ pub fn audio_lowpass(bandwidth_hz: f64, sample_rate: f64) -> Result<Fir<f32>> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::block::check::{check_block, BlockCheck, DelayProbe};
     use crate::block::process_to_vec;
-    use crate::dsp::test_util::{assert_chunk_invariant, random_complex, random_real};
+    use crate::dsp::test_util::{complex_tone, random_complex, random_real, real_tone};
     use crate::Complex32;
 
     /// The textbook sum y[n] = Σ h[k]·x[n−k], in f64.
@@ -143,13 +141,38 @@ mod tests {
         }
     }
 
+    /// A designed (symmetric) low-pass, so (taps − 1)/2 is its true group delay; probe tones
+    /// in the passband (0.05 fs), 0.004 apart < 1/(2·delay) for its ~100 taps. Splits
+    /// straddle the history refill at PIECE inputs.
     #[test]
-    fn chunk_invariant() {
-        let taps = random_real(63, 3);
-        let x = random_complex(9000, 4);
-        assert_chunk_invariant(|| Fir::<Complex32>::new(&taps).unwrap(), &x);
-        let xr = random_real(9000, 5);
-        assert_chunk_invariant(|| Fir::<f32>::new(&taps).unwrap(), &xr);
+    fn meets_the_block_contract() {
+        let taps = design_lowpass(&LowpassSpec {
+            passband_hz: 0.05,
+            stopband_hz: 0.08,
+            attenuation_db: 60.0,
+            sample_rate: 1.0,
+        })
+        .unwrap();
+        let x = random_complex(20_000, 4);
+        let make = || Fir::<Complex32>::new(&taps).unwrap();
+        let signal = |f: f64| complex_tone(20_000, f);
+        check_block(&BlockCheck {
+            delay_probe: Some(DelayProbe {
+                signal: &signal,
+                tones: [0.01, 0.014],
+            }),
+            ..BlockCheck::new(&make, &x)
+        });
+        let xr = random_real(20_000, 5);
+        let make = || Fir::<f32>::new(&taps).unwrap();
+        let signal = |f: f64| real_tone(20_000, f);
+        check_block(&BlockCheck {
+            delay_probe: Some(DelayProbe {
+                signal: &signal,
+                tones: [0.01, 0.014],
+            }),
+            ..BlockCheck::new(&make, &xr)
+        });
     }
 
     #[test]

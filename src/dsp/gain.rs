@@ -1,6 +1,6 @@
 //! A fixed gain: the simplest block, and the model for the block contract.
 
-use crate::block::Block;
+use crate::block::SampleBlock;
 
 /// Multiplies every sample by a constant.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -26,48 +26,49 @@ impl Gain {
     }
 }
 
-impl Block for Gain {
-    type Input = f32;
-    type Output = f32;
+impl SampleBlock for Gain {
+    type In = f32;
+    type Out = f32;
 
-    fn process(&mut self, input: &[f32], output: &mut [f32]) -> (usize, usize) {
-        let n = input.len().min(output.len());
-        for (y, x) in output[..n].iter_mut().zip(&input[..n]) {
-            *y = x * self.gain;
-        }
-        (n, n)
+    #[inline]
+    fn next(&mut self, x: f32) -> f32 {
+        x * self.gain
     }
 
-    fn max_output_len(&self, input_len: usize) -> usize {
-        input_len
-    }
-
-    fn rate_ratio(&self) -> f64 {
-        1.0
-    }
-
-    fn delay(&self) -> f64 {
+    fn sample_delay(&self) -> f64 {
         0.0
     }
 
-    fn reset(&mut self) {}
+    fn reset_state(&mut self) {}
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::block::{process_in_chunks, process_to_vec};
+    use crate::block::check::{check_block, BlockCheck, DelayProbe};
+    use crate::block::process_to_vec;
+    use crate::dsp::test_util::real_tone;
 
     #[test]
-    fn scales_and_is_chunk_invariant() {
+    fn scales() {
         let input: Vec<f32> = (0..3000).map(|n| n as f32 - 1500.0).collect();
         let whole = process_to_vec(&mut Gain::new(-0.25), &input);
         assert_eq!(whole[0], 375.0);
-        for sizes in [vec![1usize], vec![7, 1024]] {
-            assert_eq!(
-                process_in_chunks(&mut Gain::new(-0.25), &input, &sizes),
-                whole
-            );
-        }
+        assert_eq!(whole[2999], -374.75);
+    }
+
+    /// Linear and memoryless: the probe must read a delay of 0.
+    #[test]
+    fn meets_the_block_contract() {
+        let make = || Gain::new(-0.25);
+        let input = real_tone(5000, 0.01);
+        let signal = |f: f64| real_tone(8000, f);
+        check_block(&BlockCheck {
+            delay_probe: Some(DelayProbe {
+                signal: &signal,
+                tones: [0.01, 0.03],
+            }),
+            ..BlockCheck::new(&make, &input)
+        });
     }
 }

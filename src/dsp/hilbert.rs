@@ -201,8 +201,9 @@ impl Block for HilbertFir {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::block::check::{check_block, BlockCheck, DelayProbe};
     use crate::block::process_to_vec;
-    use crate::dsp::test_util::{assert_chunk_invariant, random_real};
+    use crate::dsp::test_util::{random_real, real_tone};
 
     fn spec() -> HilbertSpec {
         HilbertSpec {
@@ -261,16 +262,28 @@ mod tests {
         }
     }
 
+    /// A pure delay of (N − 1)/2 plus −90°: the probe reads the phase difference of two
+    /// tones, so the constant quarter turn cancels. Tones at 0.1 and 0.11 of the rate, inside
+    /// the band, 0.01 apart < 1/(2·delay) for the ~40 taps of this design.
     #[test]
-    fn chunk_invariant() {
+    fn meets_the_block_contract() {
         let taps = design_hilbert(&HilbertSpec {
             low_edge_hz: 400.0,
             attenuation_db: 50.0,
             sample_rate: 8_000.0,
         })
         .unwrap();
+        assert!(taps.len() < 100, "{} taps", taps.len());
         let x = random_real(9000, 7);
-        assert_chunk_invariant(|| HilbertFir::from_taps(&taps).unwrap(), &x);
+        let make = || HilbertFir::from_taps(&taps).unwrap();
+        let signal = |f: f64| real_tone(9000, f);
+        check_block(&BlockCheck {
+            delay_probe: Some(DelayProbe {
+                signal: &signal,
+                tones: [0.1, 0.11],
+            }),
+            ..BlockCheck::new(&make, &x)
+        });
     }
 
     #[test]

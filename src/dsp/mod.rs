@@ -1,4 +1,5 @@
-//! DSP primitives: oscillators, mixers, FIR design and filtering, decimation and resampling.
+//! DSP primitives: oscillators and rotators, mixers, FIR design and filtering, decimation and
+//! resampling, seeded complex noise. Nothing here imports from the layers above.
 
 pub mod agc;
 pub mod dc_blocker;
@@ -12,10 +13,12 @@ pub mod iq_balance;
 pub mod kaiser;
 pub mod mixer;
 pub mod nco;
+pub mod noise;
 pub mod planner;
 pub mod resampler;
+pub mod rotator;
 #[cfg(test)]
-mod test_util;
+pub(crate) mod test_util;
 
 pub use agc::{Agc, AgcSettings};
 pub use dc_blocker::{dc_blocker_pole, DcBlocker};
@@ -27,5 +30,7 @@ pub use iq_balance::IqBalancer;
 pub use kaiser::{design_lowpass, kaiser_beta, kaiser_num_taps, LowpassSpec};
 pub use mixer::Mixer;
 pub use nco::Nco;
+pub use noise::ComplexNoise;
 pub use planner::{rational_ratio, DecimationPlan, DecimationStage, MultiStageDecimator};
 pub use resampler::RationalResampler;
+pub use rotator::Rotator;

@@ -12,7 +12,7 @@
 //! removed by later stages, and nothing aliases into [0, fp]. Tap counts come from Kaiser's
 //! formula (see [`crate::dsp::kaiser`]).
 
-use crate::block::Block;
+use crate::block::{Block, PIECE};
 use crate::dsp::decimator::FirDecimator;
 use crate::dsp::kaiser::{design_lowpass, kaiser_num_taps, LowpassSpec};
 use crate::sample::Sample;
@@ -25,8 +25,6 @@ const MAX_DENOMINATOR: u64 = 10_000;
 const RATIO_TOLERANCE: f64 = 1e-9;
 /// Largest total decimation factor planned (bounds the search; 2^16 covers any SDR rate).
 const MAX_TOTAL_FACTOR: usize = 1 << 16;
-/// Inputs processed per internal chunk by [`MultiStageDecimator`].
-const CHUNK: usize = 4096;
 
 fn positive_rate(name: &'static str, rate: f64) -> Result<f64> {
     if rate.is_finite() && rate > 0.0 {
@@ -313,7 +311,7 @@ impl<T: Sample> MultiStageDecimator<T> {
             .map(|s| FirDecimator::new(&s.taps, s.factor))
             .collect::<Result<Vec<_>>>()?;
         let mut buffers = Vec::new();
-        let mut len = CHUNK;
+        let mut len = PIECE;
         for stage in stages.iter().take(stages.len().saturating_sub(1)) {
             len = stage.max_output_len(len);
             buffers.push(vec![T::ZERO; len]);
@@ -360,7 +358,7 @@ impl<T: Sample> Block for MultiStageDecimator<T> {
             // Exact counts, not the ⌈n/D⌉ bound: per-piece bounds would add up to more than the
             // bound of the whole and leave input unconsumed with room to spare.
             let room = output.len() - produced;
-            let mut n = CHUNK.min(input.len() - consumed);
+            let mut n = PIECE.min(input.len() - consumed);
             while n > 0 && self.output_len(n) > room {
                 n /= 2;
             }
@@ -401,8 +399,9 @@ impl<T: Sample> Block for MultiStageDecimator<T> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::block::check::{check_block, BlockCheck, DelayProbe};
     use crate::block::process_to_vec;
-    use crate::dsp::test_util::{assert_chunk_invariant, random_complex};
+    use crate::dsp::test_util::{assert_chunk_invariant, complex_tone, random_complex};
     use crate::Complex32;
 
     #[test]
@@ -470,8 +469,28 @@ mod tests {
         }
     }
 
+    /// 2.4 MS/s to 48 kS/s in several stages; probe tones at 3 and 3.3 kHz, in the 10 kHz
+    /// passband, 300 Hz apart: below fs/(2·delay) for a delay under 4000 input samples.
     #[test]
-    fn chunk_invariant_and_sized() {
+    fn meets_the_block_contract() {
+        let fs = 2_400_000.0;
+        let plan = DecimationPlan::new(fs, 48_000.0, 10_000.0, 70.0).unwrap();
+        assert!(plan.stages.len() > 1, "{plan}");
+        let x = random_complex(60_000, 31);
+        let make = || MultiStageDecimator::<Complex32>::new(&plan).unwrap();
+        let signal = |f: f64| complex_tone(600_000, f);
+        check_block(&BlockCheck {
+            delay_probe: Some(DelayProbe {
+                signal: &signal,
+                tones: [3_000.0 / fs, 3_300.0 / fs],
+            }),
+            ..BlockCheck::new(&make, &x)
+        });
+    }
+
+    /// Output-limited calls, which the shared check does not make, and the sizes.
+    #[test]
+    fn chunk_invariant_with_short_outputs_and_sized() {
         let plan = DecimationPlan::new(2_400_000.0, 48_000.0, 10_000.0, 70.0).unwrap();
         let x = random_complex(60_000, 31);
         assert_chunk_invariant(|| MultiStageDecimator::<Complex32>::new(&plan).unwrap(), &x);

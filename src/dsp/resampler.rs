@@ -7,7 +7,7 @@
 //! (`scipy.signal.resample_poly` centres the filter instead; with half = (N−1)/2 a multiple of
 //! M its output j equals this block's output j + half/M. The reference test checks both.)
 
-use crate::block::Block;
+use crate::block::{Block, PIECE};
 use crate::dsp::dot::Taps;
 use crate::dsp::fir::validate_taps;
 use crate::dsp::history::History;
@@ -16,8 +16,6 @@ use crate::dsp::planner::rational_ratio;
 use crate::sample::Sample;
 use crate::{Error, Result};
 
-/// New samples taken per history refill.
-const CHUNK: usize = 4096;
 /// Largest up or down factor accepted (bounds the filter bank's memory).
 const MAX_FACTOR: usize = 1 << 16;
 
@@ -66,7 +64,7 @@ impl<T: Sample> RationalResampler<T> {
             .collect();
         Ok(RationalResampler {
             phases,
-            history: History::new(per_phase, CHUNK),
+            history: History::new(per_phase, PIECE),
             up,
             down,
             prototype_len: taps.len(),
@@ -169,8 +167,9 @@ impl<T: Sample> Block for RationalResampler<T> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::block::check::{check_block, BlockCheck, DelayProbe};
     use crate::block::process_to_vec;
-    use crate::dsp::test_util::{assert_chunk_invariant, random_complex, random_real};
+    use crate::dsp::test_util::{assert_chunk_invariant, random_complex, random_real, real_tone};
     use crate::Complex32;
 
     /// Textbook route in f64: insert L−1 zeros, filter with L·h at full rate, keep every M-th.
@@ -210,8 +209,9 @@ mod tests {
         }
     }
 
+    /// Output-limited calls, which the shared check does not make.
     #[test]
-    fn chunk_invariant() {
+    fn chunk_invariant_with_short_outputs() {
         let taps = random_real(300, 13);
         let x = random_complex(12_000, 14);
         assert_chunk_invariant(
@@ -222,6 +222,25 @@ mod tests {
             || RationalResampler::<Complex32>::new(5, 2, &taps).unwrap(),
             &x,
         );
+    }
+
+    /// 48 kHz to 44.1 kHz (147/160) and 8 kHz to 20 kHz (5/2) with designed prototypes;
+    /// probe tones at 1 and 1.2 kHz, in the passband, 200 Hz apart < fs/(2·delay).
+    #[test]
+    fn meets_the_block_contract() {
+        for (fs_in, fs_out) in [(48_000.0, 44_100.0), (8_000.0, 20_000.0)] {
+            let make = || RationalResampler::<f32>::design(fs_in, fs_out, 3_000.0, 60.0).unwrap();
+            let x = random_real(30_000, 14);
+            let signal = |f: f64| real_tone(60_000, f);
+            check_block(&BlockCheck {
+                count_slack: 3,
+                delay_probe: Some(DelayProbe {
+                    signal: &signal,
+                    tones: [1_000.0 / fs_in, 1_200.0 / fs_in],
+                }),
+                ..BlockCheck::new(&make, &x)
+            });
+        }
     }
 
     #[test]

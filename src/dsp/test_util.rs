@@ -1,4 +1,5 @@
-//! Helpers shared by the DSP unit tests: seeded signals and chunked runs.
+//! Helpers shared by the unit tests of every layer (dsp, sync, channel, synth): seeded
+//! signals, probe tones, line amplitudes and chunked runs with limited output room.
 
 use crate::block::Block;
 use crate::Complex32;
@@ -69,4 +70,46 @@ where
         assert_eq!(got.len(), whole.len(), "chunk {chunk}: length");
         assert!(got == whole, "chunk {chunk}: output differs");
     }
+}
+
+/// Amplitudes of the lines at f_c + f, f_c − f and f_c in `z` (DFT projections; exact for
+/// whole numbers of cycles).
+pub(crate) fn line_amplitudes(z: &[Complex32], f_c: f64, f: f64, fs: f64) -> (f64, f64, f64) {
+    let project = |freq: f64| {
+        let sum: num_complex::Complex64 = z
+            .iter()
+            .enumerate()
+            .map(|(n, v)| {
+                num_complex::Complex64::new(f64::from(v.re), f64::from(v.im))
+                    * num_complex::Complex64::from_polar(
+                        1.0,
+                        -std::f64::consts::TAU * freq * n as f64 / fs,
+                    )
+            })
+            .sum();
+        sum.norm() / z.len() as f64
+    };
+    (project(f_c + f), project(f_c - f), project(f_c))
+}
+
+/// A cosine message of `len` samples.
+pub(crate) fn cosine(f: f64, fs: f64, len: usize) -> Vec<f32> {
+    (0..len)
+        .map(|n| (std::f64::consts::TAU * f * n as f64 / fs).cos() as f32)
+        .collect()
+}
+
+/// A real delay-probe tone: cos(2πfn) at `f` cycles per sample, `len` samples.
+pub(crate) fn real_tone(len: usize, f: f64) -> Vec<f32> {
+    cosine(f, 1.0, len)
+}
+
+/// A complex delay-probe tone: e^{j2πfn} at `f` cycles per sample, `len` samples.
+pub(crate) fn complex_tone(len: usize, f: f64) -> Vec<Complex32> {
+    (0..len)
+        .map(|n| {
+            let (s, c) = (std::f64::consts::TAU * (f * n as f64).fract()).sin_cos();
+            Complex32::new(c as f32, s as f32)
+        })
+        .collect()
 }

@@ -2,7 +2,7 @@
 
 use super::loop_filter::LoopGains;
 use super::pll::PllConfig;
-use crate::block::Block;
+use crate::block::SampleBlock;
 use crate::{Complex32, Error, Result};
 use std::f64::consts::{PI, TAU};
 
@@ -191,31 +191,22 @@ impl CostasLoop {
     }
 }
 
-impl Block for CostasLoop {
-    type Input = Complex32;
-    type Output = Complex32;
+impl SampleBlock for CostasLoop {
+    type In = Complex32;
+    type Out = Complex32;
 
-    fn process(&mut self, input: &[Complex32], output: &mut [Complex32]) -> (usize, usize) {
-        let n = input.len().min(output.len());
-        for (y, &x) in output[..n].iter_mut().zip(&input[..n]) {
-            *y = self.next_sample(x);
-        }
-        (n, n)
+    #[inline]
+    fn next(&mut self, x: Complex32) -> Complex32 {
+        self.next_sample(x)
     }
 
-    fn max_output_len(&self, input_len: usize) -> usize {
-        input_len
-    }
-
-    fn rate_ratio(&self) -> f64 {
-        1.0
-    }
-
-    fn delay(&self) -> f64 {
+    /// 0: the output is the input de-rotated by the NCO, sample for sample; the loop adds
+    /// no filter to the signal path.
+    fn sample_delay(&self) -> f64 {
         0.0
     }
 
-    fn reset(&mut self) {
+    fn reset_state(&mut self) {
         if let Ok(fresh) = CostasLoop::new(self.config) {
             *self = fresh;
         }
@@ -225,7 +216,8 @@ impl Block for CostasLoop {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::block::{process_in_chunks, process_to_vec};
+    use crate::block::check::{check_block, BlockCheck};
+    use crate::block::process_to_vec;
 
     const FS: f64 = 48_000.0;
 
@@ -295,18 +287,13 @@ mod tests {
         }
     }
 
+    /// No delay probe: the output is de-rotated by the loop; `delay()` is 0 because the
+    /// loop adds no filter delay.
     #[test]
-    fn chunk_invariant() {
+    fn meets_the_block_contract() {
         let x = dsb(12.0, 0.3, 20_000);
-        let whole = process_to_vec(&mut CostasLoop::new(PllConfig::new(FS, 40.0)).unwrap(), &x);
-        for sizes in [vec![1usize], vec![7, 1024], vec![3333, 2]] {
-            let mut c = CostasLoop::new(PllConfig::new(FS, 40.0)).unwrap();
-            assert_eq!(
-                process_in_chunks(&mut c, &x, &sizes),
-                whole,
-                "sizes {sizes:?}"
-            );
-        }
+        let make = || CostasLoop::new(PllConfig::new(FS, 40.0)).unwrap();
+        check_block(&BlockCheck::new(&make, &x));
     }
 
     #[test]

@@ -5,8 +5,8 @@
 //! normalised) the modulation index is μ = k_a·max|m| = k_a.
 
 use super::params::{amplitude, modulation_index, to_c32};
-use super::rotator::Rotator;
-use crate::block::Block;
+use crate::block::SampleBlock;
+use crate::dsp::Rotator;
 use crate::{Complex32, Result};
 
 /// Full-carrier AM: message samples in, complex baseband at the carrier offset out.
@@ -51,39 +51,23 @@ impl AmModulator {
     pub fn modulation_index(&self) -> f64 {
         self.k_a
     }
+}
+
+impl SampleBlock for AmModulator {
+    type In = f32;
+    type Out = Complex32;
 
     #[inline]
     fn next(&mut self, m: f32) -> Complex32 {
         let m = if m.is_finite() { f64::from(m) } else { 0.0 };
         to_c32(self.carrier.next_sample() * (self.carrier_amplitude * (1.0 + self.k_a * m)))
     }
-}
 
-impl Block for AmModulator {
-    type Input = f32;
-    type Output = Complex32;
-
-    fn process(&mut self, input: &[f32], output: &mut [Complex32]) -> (usize, usize) {
-        let n = input.len().min(output.len());
-        for (y, m) in output.iter_mut().zip(input).take(n) {
-            *y = self.next(*m);
-        }
-        (n, n)
-    }
-
-    fn max_output_len(&self, input_len: usize) -> usize {
-        input_len
-    }
-
-    fn rate_ratio(&self) -> f64 {
-        1.0
-    }
-
-    fn delay(&self) -> f64 {
+    fn sample_delay(&self) -> f64 {
         0.0
     }
 
-    fn reset(&mut self) {
+    fn reset_state(&mut self) {
         self.carrier.reset();
     }
 }
@@ -91,7 +75,9 @@ impl Block for AmModulator {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::block::check::{check_block, BlockCheck, DelayProbe};
     use crate::block::process_in_chunks;
+    use crate::dsp::test_util::real_tone;
     use crate::synth::{AmToneTransmitter, MessageSource, ToneMessage};
 
     #[test]
@@ -117,14 +103,26 @@ mod tests {
         }
     }
 
+    /// Memoryless: at a 0 Hz carrier the message tone comes out at its own frequency with
+    /// no delay.
     #[test]
-    fn chunk_invariant_and_validated() {
-        let m: Vec<f32> = (0..10_000).map(|n| ((n as f32) * 0.013).sin()).collect();
+    fn meets_the_block_contract() {
+        let input: Vec<f32> = (0..10_000).map(|n| ((n as f32) * 0.013).sin()).collect();
         let make = || AmModulator::new(0.3, 0.9, 1234.5, 20e3).unwrap();
-        let whole = process_in_chunks(&mut make(), &m, &[10_000]);
-        for sizes in [vec![1usize], vec![7, 1024], vec![999, 13, 2]] {
-            assert_eq!(process_in_chunks(&mut make(), &m, &sizes), whole);
-        }
+        check_block(&BlockCheck::new(&make, &input));
+        let make = || AmModulator::new(0.3, 0.9, 0.0, 20e3).unwrap();
+        let signal = |f: f64| real_tone(10_000, f);
+        check_block(&BlockCheck {
+            delay_probe: Some(DelayProbe {
+                signal: &signal,
+                tones: [0.01, 0.03],
+            }),
+            ..BlockCheck::new(&make, &input)
+        });
+    }
+
+    #[test]
+    fn validated() {
         assert!(AmModulator::new(0.3, -0.1, 0.0, 20e3).is_err());
         assert!(AmModulator::new(-0.3, 0.1, 0.0, 20e3).is_err());
         assert!(AmModulator::new(0.3, 0.1, 10_001.0, 20e3).is_err());

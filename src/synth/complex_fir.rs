@@ -111,6 +111,7 @@ impl Block for ComplexFir {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::block::check::{check_block, BlockCheck, DelayProbe};
     use crate::block::process_in_chunks;
 
     #[test]
@@ -131,11 +132,32 @@ mod tests {
                     < 1e-4 * (1.0 + want.norm())
             );
         }
-        for sizes in [vec![1usize], vec![7, 1024], vec![5, 333]] {
-            assert_eq!(
-                process_in_chunks(&mut ComplexFir::new(&taps).unwrap(), &x, &sizes),
-                whole
-            );
-        }
+    }
+
+    /// Symmetric taps (a designed low-pass turned by a constant phase, which the probe's
+    /// phase difference cancels), so (N − 1)/2 is the true delay; tones at 0.01 and 0.014,
+    /// in the passband, 0.004 apart < 1/(2·delay) for its ~100 taps.
+    #[test]
+    fn meets_the_block_contract() {
+        let taps: Vec<Complex64> = crate::dsp::design_lowpass(&crate::dsp::LowpassSpec {
+            passband_hz: 0.05,
+            stopband_hz: 0.08,
+            attenuation_db: 60.0,
+            sample_rate: 1.0,
+        })
+        .unwrap()
+        .iter()
+        .map(|&h| Complex64::from_polar(f64::from(h), 0.4))
+        .collect();
+        let x = crate::dsp::test_util::random_complex(6000, 3);
+        let make = || ComplexFir::new(&taps).unwrap();
+        let signal = |f: f64| crate::dsp::test_util::complex_tone(20_000, f);
+        check_block(&BlockCheck {
+            delay_probe: Some(DelayProbe {
+                signal: &signal,
+                tones: [0.01, 0.014],
+            }),
+            ..BlockCheck::new(&make, &x)
+        });
     }
 }

@@ -2,8 +2,8 @@
 //! (S. Haykin, Communication Systems, ch. 2, DSB-SC).
 
 use super::params::{amplitude, to_c32};
-use super::rotator::Rotator;
-use crate::block::Block;
+use crate::block::SampleBlock;
+use crate::dsp::Rotator;
 use crate::{Complex32, Result};
 
 /// DSB-SC: message in, complex baseband at the carrier offset out; A is the peak for |m| = 1.
@@ -30,32 +30,21 @@ impl DsbModulator {
     }
 }
 
-impl Block for DsbModulator {
-    type Input = f32;
-    type Output = Complex32;
+impl SampleBlock for DsbModulator {
+    type In = f32;
+    type Out = Complex32;
 
-    fn process(&mut self, input: &[f32], output: &mut [Complex32]) -> (usize, usize) {
-        let n = input.len().min(output.len());
-        for (y, m) in output.iter_mut().zip(input).take(n) {
-            let m = if m.is_finite() { f64::from(*m) } else { 0.0 };
-            *y = to_c32(self.carrier.next_sample() * (self.amplitude * m));
-        }
-        (n, n)
+    #[inline]
+    fn next(&mut self, m: f32) -> Complex32 {
+        let m = if m.is_finite() { f64::from(m) } else { 0.0 };
+        to_c32(self.carrier.next_sample() * (self.amplitude * m))
     }
 
-    fn max_output_len(&self, input_len: usize) -> usize {
-        input_len
-    }
-
-    fn rate_ratio(&self) -> f64 {
-        1.0
-    }
-
-    fn delay(&self) -> f64 {
+    fn sample_delay(&self) -> f64 {
         0.0
     }
 
-    fn reset(&mut self) {
+    fn reset_state(&mut self) {
         self.carrier.reset();
     }
 }
@@ -63,7 +52,9 @@ impl Block for DsbModulator {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::block::check::{check_block, BlockCheck, DelayProbe};
     use crate::block::process_in_chunks;
+    use crate::dsp::test_util::real_tone;
 
     #[test]
     fn closed_form_and_chunk_invariance() {
@@ -81,9 +72,23 @@ mod tests {
                     && (f64::from(y.im) - want.im).abs() < 1e-6
             );
         }
-        for sizes in [vec![1usize], vec![7, 1024], vec![3, 500]] {
-            assert_eq!(process_in_chunks(&mut make(), &m, &sizes), whole);
-        }
         assert!(DsbModulator::new(f64::NAN, 0.0, fs).is_err());
+    }
+
+    /// Memoryless: at a 0 Hz carrier the message tone comes out with no delay.
+    #[test]
+    fn meets_the_block_contract() {
+        let input: Vec<f32> = (0..8000).map(|n| ((n as f32) * 0.05).cos()).collect();
+        let make = || DsbModulator::new(0.4, 2500.25, 20e3).unwrap();
+        check_block(&BlockCheck::new(&make, &input));
+        let make = || DsbModulator::new(0.4, 0.0, 20e3).unwrap();
+        let signal = |f: f64| real_tone(8000, f);
+        check_block(&BlockCheck {
+            delay_probe: Some(DelayProbe {
+                signal: &signal,
+                tones: [0.01, 0.03],
+            }),
+            ..BlockCheck::new(&make, &input)
+        });
     }
 }

@@ -20,8 +20,9 @@ use serde::{Deserialize, Serialize};
 use std::path::Path;
 
 /// Message samples produced per refill at most (fewer for large interpolation factors, so
-/// the interpolated piece stays near 64 Ki samples: bounded memory).
-const PIECE: usize = 256;
+/// the interpolated piece stays near 64 Ki samples: bounded memory). Not [`crate::block::PIECE`]:
+/// it counts samples at the message rate, before interpolation by up to 2^16.
+const MESSAGE_PIECE: usize = 256;
 /// Interpolator stopband attenuation, dB (images of the envelope; common practice, no source).
 const IMAGE_ATTENUATION_DB: f64 = 90.0;
 /// Largest interpolation factor (the resampler's limit).
@@ -649,7 +650,7 @@ impl Emission {
         } else {
             None
         };
-        let piece = (MAX_FACTOR / factor).clamp(1, PIECE);
+        let piece = (MAX_FACTOR / factor).clamp(1, MESSAGE_PIECE);
         let interpolated_len = interpolator
             .as_ref()
             .map_or(piece, |r| r.max_output_len(piece));

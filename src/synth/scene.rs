@@ -58,10 +58,12 @@
 //! front-end `impairments`. A sample lies in a burst with probability 1 − e^(−rate·duration).
 //! `seed` defaults to one derived from the scene seed.
 
-use super::{ComplexNoise, Emission, EmissionSpec, IqImpairment};
+use super::{Emission, EmissionSpec};
 use crate::block::Block;
 use crate::channel::snr::{n0_from_cnr, n0_from_snr};
 use crate::channel::ImpulseNoise;
+use crate::channel::IqImpairment;
+use crate::dsp::ComplexNoise;
 use crate::io::SampleFormat;
 use crate::{Complex32, Error, Result};
 use serde::{Deserialize, Serialize};

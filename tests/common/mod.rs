@@ -1,8 +1,9 @@
 //! Shared helpers for the integration tests.
 #![allow(dead_code)]
 
+use amrx::dsp::ComplexNoise;
 use amrx::io::{SampleFormat, SigmfWriter};
-use amrx::synth::{AmToneTransmitter, ComplexNoise};
+use amrx::synth::AmToneTransmitter;
 use amrx::Complex32;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};

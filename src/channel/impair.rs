@@ -28,17 +28,29 @@ impl IqImpairment {
     ///
     /// Non-finite gain or phase settings are treated as no imbalance.
     pub fn apply(&self, signal: &mut [Complex32]) {
+        let q_from = self.q_coefficients();
+        for s in signal.iter_mut() {
+            *s = self.apply_one(q_from, *s);
+        }
+    }
+
+    /// The Q branch's weights (on Q, on I): (g·cos φ, −g·sin φ), or (1, 0) for non-finite
+    /// settings.
+    pub(crate) fn q_coefficients(&self) -> (f32, f32) {
         let gain = 10f64.powf(self.gain_db / 20.0);
         let (sin, cos) = self.phase_deg.to_radians().sin_cos();
-        let (q_from_q, q_from_i) = if gain.is_finite() && sin.is_finite() {
+        if gain.is_finite() && sin.is_finite() {
             ((gain * cos) as f32, (-gain * sin) as f32)
         } else {
             (1.0, 0.0)
-        };
-        for s in signal.iter_mut() {
-            let (i, q) = (s.re, s.im);
-            *s = Complex32::new(i + self.dc.re, q_from_q * q + q_from_i * i + self.dc.im);
         }
+    }
+
+    /// One sample, with the weights of [`q_coefficients`](Self::q_coefficients).
+    #[inline]
+    pub(crate) fn apply_one(&self, (q_from_q, q_from_i): (f32, f32), s: Complex32) -> Complex32 {
+        let (i, q) = (s.re, s.im);
+        Complex32::new(i + self.dc.re, q_from_q * q + q_from_i * i + self.dc.im)
     }
 
     /// The image rejection ratio (linear power ratio) this impairment produces,

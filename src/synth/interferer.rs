@@ -26,7 +26,7 @@ impl Interferer {
     /// for as long as the input lasts (start/stop times still apply).
     ///
     /// ```
-    /// use amrx::channel::Interferer;
+    /// use amrx::synth::Interferer;
     /// use amrx::synth::EmissionSpec;
     /// let spec: EmissionSpec = serde_json::from_str(r#"{"label":"adj","mode":"am","offset_hz":9000,
     ///   "level_db":-20,"mu":0.6,"message":{"type":"tone","frequency_hz":800}}"#).unwrap();
@@ -86,6 +86,7 @@ impl Block for Interferer {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::block::check::{check_block, BlockCheck, DelayProbe};
 
     #[test]
     fn adds_an_am_interferer_at_its_offset_and_level() {
@@ -104,13 +105,32 @@ mod tests {
             &[4096],
         );
         let (_, _, carrier) =
-            crate::synth::test_util::line_amplitudes(&y[48_000..], 9000.0, 800.0, fs);
+            crate::dsp::test_util::line_amplitudes(&y[48_000..], 9000.0, 800.0, fs);
         assert!((carrier - 0.1).abs() < 1e-3, "{carrier}");
-        let (_, _, dc) = crate::synth::test_util::line_amplitudes(&y[48_000..], 0.0, 800.0, fs);
+        let (_, _, dc) = crate::dsp::test_util::line_amplitudes(&y[48_000..], 0.0, 800.0, fs);
         assert!((dc - 0.2).abs() < 1e-3, "{dc}");
-        let xr: Vec<Complex32> = (0..6000)
+    }
+
+    /// Additive: the input passes with no delay, so a probe tone at 480–960 Hz (well away
+    /// from the interferer's lines at 8.2–9.8 kHz) must read 0.
+    #[test]
+    fn meets_the_block_contract() {
+        let spec: EmissionSpec = serde_json::from_str(
+            r#"{"label":"adj","mode":"am","offset_hz":9000,
+            "level_db":-20,"mu":0.6,"message":{"type":"tone","frequency_hz":800}}"#,
+        )
+        .unwrap();
+        let x: Vec<Complex32> = (0..6000)
             .map(|n| Complex32::new((n as f32 * 0.1).sin(), 0.3))
             .collect();
-        crate::channel::assert_chunk_invariant(|| Interferer::new(&spec, fs, 1).unwrap(), &xr);
+        let make = || Interferer::new(&spec, 48e3, 1).unwrap();
+        let signal = |f: f64| crate::dsp::test_util::complex_tone(20_000, f);
+        check_block(&BlockCheck {
+            delay_probe: Some(DelayProbe {
+                signal: &signal,
+                tones: [0.01, 0.02],
+            }),
+            ..BlockCheck::new(&make, &x)
+        });
     }
 }

@@ -49,7 +49,9 @@ impl ComplexNoise {
         2.0 * self.sigma * self.sigma
     }
 
-    fn next(&mut self) -> Complex32 {
+    /// The next noise sample.
+    #[inline]
+    pub fn sample(&mut self) -> Complex32 {
         let re: f64 = StandardNormal.sample(&mut self.rng);
         let im: f64 = StandardNormal.sample(&mut self.rng);
         Complex32::new((re * self.sigma) as f32, (im * self.sigma) as f32)
@@ -58,14 +60,14 @@ impl ComplexNoise {
     /// Adds noise to `signal` in place.
     pub fn add_to(&mut self, signal: &mut [Complex32]) {
         for s in signal.iter_mut() {
-            *s += self.next();
+            *s += self.sample();
         }
     }
 
     /// Overwrites `out` with noise.
     pub fn fill(&mut self, out: &mut [Complex32]) {
         for s in out.iter_mut() {
-            *s = self.next();
+            *s = self.sample();
         }
     }
 }
