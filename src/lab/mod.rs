@@ -15,6 +15,7 @@
 pub mod csv;
 pub mod detector;
 pub mod diode_receiver;
+#[cfg(feature = "lab")]
 pub mod plot;
 pub mod rc_study;
 pub mod signal;
@@ -26,11 +27,14 @@ pub mod trial;
 pub use csv::{to_csv, write_csv, CSV_HEADER};
 pub use detector::{parse_detectors, Detector};
 pub use diode_receiver::DiodeReceiver;
+#[cfg(feature = "lab")]
 pub use plot::write_png;
 pub use rc_study::{measure_rc, RcMeasurement};
 pub use signal::{TestSignal, ToneSource};
 pub use summary::summary_lines;
-pub use sweep::{run_sweep, Axis, Curve, Progress, SweepPoint, SweepResult, SweepSpec, Threshold};
+#[cfg(feature = "lab")]
+pub use sweep::run_sweep;
+pub use sweep::{Axis, Curve, Progress, SweepPoint, SweepResult, SweepSpec, Threshold};
 pub use trial::{run_trial, trial_seed, TrialSettings, SIGNAL_POWER};
 
 use std::path::{Path, PathBuf};
