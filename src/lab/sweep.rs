@@ -2,10 +2,16 @@
 //! results averaged per point.
 
 use super::detector::Detector;
-use super::theory::{channel_snr_over_cnr_db, db, from_db};
-use super::trial::{run_trial, trial_seed, TrialSettings};
+use super::theory::channel_snr_over_cnr_db;
+#[cfg(feature = "lab")]
+use super::theory::{db, from_db};
+use super::trial::TrialSettings;
+#[cfg(feature = "lab")]
+use super::trial::{run_trial, trial_seed};
 use crate::{Error, Result};
+#[cfg(feature = "lab")]
 use rayon::prelude::*;
+#[cfg(feature = "lab")]
 use std::sync::atomic::{AtomicUsize, Ordering};
 
 /// What the input values of a sweep mean.
@@ -283,6 +289,7 @@ impl SweepResult {
 /// let result = run_sweep(&spec, |p| eprintln!("{}/{}", p.done, p.total))?;
 /// # Ok::<(), amrx::Error>(())
 /// ```
+#[cfg(feature = "lab")]
 pub fn run_sweep<F>(spec: &SweepSpec, progress: F) -> Result<SweepResult>
 where
     F: Fn(Progress) + Sync,
@@ -329,6 +336,7 @@ where
 }
 
 /// Averages one point's trials.
+#[cfg(feature = "lab")]
 fn point(spec: &SweepSpec, detector: &Detector, p: usize, trials: &[f64]) -> SweepPoint {
     // Mean of the linear power ratios; its standard error carried to dB by the delta method,
     // d(10·log10 r) = (10/ln 10)·dr/r.
@@ -412,6 +420,7 @@ mod tests {
     }
 
     #[test]
+    #[cfg(feature = "lab")]
     fn results_do_not_depend_on_the_thread_count() {
         let mut spec = SweepSpec::new(
             vec![Detector::Receiver(Mode::Am)],

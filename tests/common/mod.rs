@@ -6,7 +6,6 @@ use amrx::io::{SampleFormat, SigmfWriter};
 use amrx::synth::AmToneTransmitter;
 use amrx::Complex32;
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
 
 /// A fresh, empty folder for one test, under the system's temp folder.
 pub fn scratch_dir(name: &str) -> PathBuf {
@@ -50,9 +49,10 @@ pub fn write_sigmf(
     base.with_extension("sigmf-meta")
 }
 
-/// Runs the `amrx` binary with `args`.
-pub fn amrx(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_amrx"))
+/// Runs the `amrx` binary with `args` (the binary is built with the `cli` feature only).
+#[cfg(feature = "cli")]
+pub fn amrx(args: &[&str]) -> std::process::Output {
+    std::process::Command::new(env!("CARGO_BIN_EXE_amrx"))
         .args(args)
         .output()
         .expect("the amrx binary runs")
