@@ -141,7 +141,10 @@ fn raw_errors_name_the_file() {
         .unwrap();
     assert!(matches!(
         err,
-        Error::InvalidParameter { name: "--rate", .. }
+        Error::InvalidParameter {
+            name: "sample_rate",
+            ..
+        }
     ));
 }
 
@@ -354,7 +357,7 @@ fn open_input_errors() {
         matches!(
             err,
             Error::InvalidParameter {
-                name: "--channel",
+                name: "channel",
                 ..
             }
         ),
@@ -368,7 +371,7 @@ fn open_input_errors() {
         matches!(
             err,
             Error::InvalidParameter {
-                name: "--channel",
+                name: "channel",
                 ..
             }
         ),
@@ -383,13 +386,7 @@ fn open_input_errors() {
         .err()
         .unwrap();
     assert!(
-        matches!(
-            err,
-            Error::InvalidParameter {
-                name: "--format",
-                ..
-            }
-        ),
+        matches!(err, Error::InvalidParameter { name: "format", .. }),
         "{err}"
     );
     let archive = dir.path("pack.sigmf");

@@ -286,7 +286,13 @@ fn bad_recordings_give_errors_naming_the_file() {
     assert!(s.warnings().is_empty());
     let err = open_err(&meta, Some(f64::NAN));
     assert!(
-        matches!(err, Error::InvalidParameter { name: "--rate", .. }),
+        matches!(
+            err,
+            Error::InvalidParameter {
+                name: "sample_rate",
+                ..
+            }
+        ),
         "{err}"
     );
 }

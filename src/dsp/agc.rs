@@ -100,9 +100,9 @@ impl Agc {
                 max_gain_db,
             } => {
                 for (name, value) in [
-                    ("--agc attack", attack_s),
-                    ("--agc decay", decay_s),
-                    ("--agc hang", hang_s),
+                    ("agc.attack_s", attack_s),
+                    ("agc.decay_s", decay_s),
+                    ("agc.hang_s", hang_s),
                 ] {
                     if !(value.is_finite() && value >= 0.0) {
                         return Err(Error::parameter(
@@ -113,7 +113,7 @@ impl Agc {
                     }
                 }
                 if !(target.is_finite() && target > 0.0 && max_gain_db.is_finite()) {
-                    return Err(Error::parameter("--agc target", target, "must be positive"));
+                    return Err(Error::parameter("agc.target", target, "must be positive"));
                 }
                 agc.attack = one_pole(attack_s, sample_rate);
                 agc.decay = one_pole(decay_s, sample_rate);
@@ -125,7 +125,7 @@ impl Agc {
             AgcSettings::Fixed { gain_db } => {
                 if !gain_db.is_finite() || gain_db.abs() > 200.0 {
                     return Err(Error::parameter(
-                        "--gain",
+                        "agc.gain_db",
                         gain_db,
                         "must be a finite gain within ±200 dB",
                     ));

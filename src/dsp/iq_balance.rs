@@ -35,7 +35,11 @@ impl IqBalancer {
     /// ```
     pub fn new(settle_s: f64, sample_rate: f64) -> Result<Self> {
         if !(sample_rate.is_finite() && sample_rate > 0.0) {
-            return Err(Error::parameter("--rate", sample_rate, "must be positive"));
+            return Err(Error::parameter(
+                "sample_rate",
+                sample_rate,
+                "must be positive",
+            ));
         }
         let samples = settle_s * sample_rate;
         if !(samples.is_finite() && samples >= 10.0) {

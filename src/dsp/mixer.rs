@@ -40,7 +40,7 @@ pub struct Mixer {
 }
 
 impl Mixer {
-    /// A mixer shifting by `frequency_hz`; |f| ≤ fs/2 or an error naming `--offset`.
+    /// A mixer shifting by `frequency_hz`; |f| ≤ fs/2 or an error naming `frequency_hz`.
     pub fn new(frequency_hz: f64, sample_rate: f64) -> Result<Self> {
         validate_frequency(frequency_hz, sample_rate)?;
         let mut mixer = Mixer {

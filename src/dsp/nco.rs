@@ -15,18 +15,18 @@ pub struct Nco {
     sample_rate: f64,
 }
 
-/// Checks |f| ≤ fs/2 with fs positive; errors name `--offset`, the user's word for the shift.
+/// Checks |f| ≤ fs/2 with fs positive; errors name `frequency_hz` and `sample_rate`.
 pub(crate) fn validate_frequency(frequency_hz: f64, sample_rate: f64) -> Result<()> {
     if !(sample_rate.is_finite() && sample_rate > 0.0) {
         return Err(Error::parameter(
-            "sample rate",
+            "sample_rate",
             sample_rate,
             "must be positive and finite",
         ));
     }
     if !(frequency_hz.is_finite() && frequency_hz.abs() <= sample_rate / 2.0) {
         return Err(Error::parameter(
-            "--offset",
+            "frequency_hz",
             format!("{frequency_hz} Hz"),
             format!(
                 "must lie within ±{} Hz (half the sample rate)",
@@ -144,6 +144,6 @@ mod tests {
         assert!(Nco::new(0.0, 0.0).is_err());
         assert!(Nco::new(0.0, f64::INFINITY).is_err());
         let e = Nco::new(-30_000.0, 48_000.0).unwrap_err().to_string();
-        assert!(e.contains("--offset"), "{e}");
+        assert!(e.contains("frequency_hz"), "{e}");
     }
 }

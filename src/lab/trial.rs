@@ -6,8 +6,8 @@ use super::theory::noise_power;
 use crate::block::process_to_vec;
 use crate::demod::{ReceiverConfig, ReceiverOptions};
 use crate::dsp::AgcSettings;
+use crate::dsp::ComplexNoise;
 use crate::measure::snr_in_band_db;
-use crate::synth::ComplexNoise;
 use crate::{Complex32, Error, Result};
 
 use super::signal::ToneSource;

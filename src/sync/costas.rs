@@ -59,7 +59,7 @@ impl CostasLoop {
             || config.initial_frequency_hz.abs() >= 0.5 * config.sample_rate
         {
             return Err(Error::parameter(
-                "--offset",
+                "initial_frequency_hz",
                 config.initial_frequency_hz,
                 "outside the loop's ±rate/2",
             ));

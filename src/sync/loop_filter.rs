@@ -29,14 +29,14 @@ impl LoopGains {
     pub fn design(bn_t: f64, zeta: f64, k0_kp: f64) -> Result<Self> {
         if !(bn_t.is_finite() && bn_t > 0.0 && bn_t < 0.5) {
             return Err(Error::parameter(
-                "--loop-bandwidth",
+                "loop_bandwidth_hz",
                 bn_t,
                 "the loop noise bandwidth must be above 0 and below half the loop's sample rate",
             ));
         }
         if !(zeta.is_finite() && zeta > 0.0) {
             return Err(Error::parameter(
-                "--loop-damping",
+                "loop_damping",
                 zeta,
                 "the damping must be above 0",
             ));
@@ -60,7 +60,7 @@ impl LoopGains {
     pub fn design_hz(bandwidth_hz: f64, zeta: f64, sample_rate: f64) -> Result<Self> {
         if !(bandwidth_hz.is_finite() && bandwidth_hz > 0.0 && bandwidth_hz < 0.5 * sample_rate) {
             return Err(Error::parameter(
-                "--loop-bandwidth",
+                "loop_bandwidth_hz",
                 bandwidth_hz,
                 format!(
                     "must be above 0 and below half the loop's rate ({} Hz)",

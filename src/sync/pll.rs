@@ -190,7 +190,7 @@ impl CarrierPll {
         if !config.initial_frequency_hz.is_finite() || config.initial_frequency_hz.abs() >= nyquist
         {
             return Err(Error::parameter(
-                "--offset",
+                "initial_frequency_hz",
                 config.initial_frequency_hz,
                 "outside the loop's ±rate/2",
             ));

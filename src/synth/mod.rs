@@ -28,9 +28,6 @@ pub mod tone_message;
 pub mod vsb;
 pub mod wav_message;
 
-/// Re-exported from [`crate::dsp`], where it now lives, for the lab's trials.
-#[doc(no_inline)]
-pub use crate::dsp::ComplexNoise;
 pub use am::AmToneTransmitter;
 pub use am_modulator::AmModulator;
 pub use complex_fir::ComplexFir;
