@@ -30,10 +30,10 @@ impl WavAudioSink {
     /// 16-bit PCM scales by 32768, rounds to nearest and clips to −32768..=32767.
     pub fn create(path: &Path, sample_rate: u32, channels: u16, pcm16: bool) -> Result<Self> {
         if sample_rate == 0 {
-            return Err(Error::parameter("audio sample rate", 0, "must be positive"));
+            return Err(Error::parameter("audio_rate", 0, "must be positive"));
         }
         if channels == 0 {
-            return Err(Error::parameter("audio channels", 0, "must be at least 1"));
+            return Err(Error::parameter("audio_channels", 0, "must be at least 1"));
         }
         let spec = hound::WavSpec {
             channels,
