@@ -245,7 +245,9 @@ pub fn capacitor_voltage(x: &[f32], rc_s: f64, rate: f64) -> Vec<f32> {
 impl PieceWise for DiodeDetector {
     type In = Complex32;
     type Out = f32;
-    const PIECE_LEN: usize = PIECE;
+    fn piece_len(&self) -> usize {
+        PIECE
+    }
 
     /// The interpolator gives exactly L outputs per input.
     fn piece_output_len(&self, n: usize) -> usize {
