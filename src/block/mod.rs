@@ -13,7 +13,7 @@ pub const PIECE: usize = 8192;
 
 /// A streaming DSP block.
 ///
-/// The contract, checked for every block by [`testing::check_block`]:
+/// The contract, checked for every block by [`check::check_block`]:
 /// - `process` consumes as much input as fits and returns `(consumed, produced)`; with an
 ///   output of `max_output_len(input.len())` it consumes everything;
 /// - the output never depends on how the input was split into calls;

@@ -254,7 +254,7 @@ impl PieceWise for DiodeDetector {
         self.decimator.output_len(n * self.config.oversample)
     }
 
-    /// Detects one piece of at most [`PIECE`] channel samples whose outputs fit.
+    /// Detects one piece of at most `PIECE` channel samples whose outputs fit.
     fn process_piece(&mut self, input: &[Complex32], output: &mut [f32]) -> usize {
         let (_, up) = self.interpolator.process(input, &mut self.upsampled);
         let n = self.rectify(up);
