@@ -19,6 +19,8 @@ use crate::{Complex32, Result};
 pub trait IqGuard: Block<Input = Complex32, Output = Complex32> + Send {
     /// Adds what the guard has seen (counts, warnings) to `m`.
     fn report(&self, _m: &mut Measurements) {}
+    /// The receiver was retuned to `offset_hz` (relative to the recording centre).
+    fn retune(&mut self, _offset_hz: f64) {}
 }
 
 /// A guard in the assembly's chain.
@@ -74,9 +76,15 @@ impl<D: ModeDetector> Assembly<D> {
         let settings = mode.spec().resolve(config)?;
         let front = ChannelFrontEnd::new(FrontEndConfig::for_mode(&settings))?;
         let rate = settings.input_rate;
-        let mut guards: Vec<Guard> = vec![Box::new(BlankingGuard::new(Blanking::Overload, rate)?)];
+        let at = settings.offset_hz;
+        let mut guards: Vec<Guard> =
+            vec![Box::new(BlankingGuard::new(Blanking::Overload, rate, at)?)];
         if settings.noise_blanker {
-            guards.push(Box::new(BlankingGuard::new(Blanking::NoiseBlanker, rate)?));
+            guards.push(Box::new(BlankingGuard::new(
+                Blanking::NoiseBlanker,
+                rate,
+                at,
+            )?));
         }
         if settings.iq_balance {
             guards.push(Box::new(IqBalanceGuard::new(settings.input_rate)?));
@@ -295,6 +303,9 @@ impl<D: Detector> Receiver for Assembly<D> {
     fn set_offset(&mut self, offset_hz: f64) -> Result<()> {
         let step = offset_hz - self.front.offset_hz();
         self.front.set_offset(offset_hz)?;
+        for guard in &mut self.guards {
+            guard.retune(offset_hz);
+        }
         self.detector.retuned(step);
         Ok(())
     }

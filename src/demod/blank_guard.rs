@@ -30,16 +30,18 @@ impl BlankingGuard {
     ///
     /// ```
     /// use amrx::demod::{Blanking, BlankingGuard};
-    /// let guard = BlankingGuard::new(Blanking::NoiseBlanker, 2_400_000.0).unwrap();
+    /// let guard = BlankingGuard::new(Blanking::NoiseBlanker, 2_400_000.0, 100_000.0).unwrap();
     /// ```
-    pub fn new(role: Blanking, input_rate: f64) -> Result<Self> {
+    /// Holes are filled with the last good sample turning at `offset_hz`, the tuned frequency.
+    pub fn new(role: Blanking, input_rate: f64, offset_hz: f64) -> Result<Self> {
         let settings = match role {
             Blanking::Overload => BlankerSettings::OVERLOAD,
             Blanking::NoiseBlanker => BlankerSettings::NOISE_BLANKER,
         };
         Ok(BlankingGuard {
             role,
-            blanker: ImpulseBlanker::new(settings, input_rate)?,
+            blanker: ImpulseBlanker::new(settings, input_rate)?
+                .holding_at(offset_hz, input_rate)?,
             input_rate,
         })
     }
@@ -76,6 +78,12 @@ impl Block for BlankingGuard {
 }
 
 impl IqGuard for BlankingGuard {
+    fn retune(&mut self, offset_hz: f64) {
+        if let Ok(b) = self.blanker.clone().holding_at(offset_hz, self.input_rate) {
+            self.blanker = b;
+        }
+    }
+
     fn report(&self, m: &mut Measurements) {
         let count = self.blanker.count();
         match self.role {
@@ -112,7 +120,7 @@ mod tests {
         // The blanker's own test probes the delay; this wrapper only forwards it.
         let mut x = random_complex(10_000, 6);
         x[4_000] = Complex32::new(1e10, 0.0);
-        let make = || BlankingGuard::new(Blanking::Overload, 240_000.0).unwrap();
+        let make = || BlankingGuard::new(Blanking::Overload, 240_000.0, 0.0).unwrap();
         check_block(&BlockCheck::new(&make, &x));
     }
 
@@ -121,13 +129,17 @@ mod tests {
         let mut x = random_complex(10_000, 6);
         x[4_000] = Complex32::new(f32::INFINITY, 0.0);
         let mut out = vec![Complex32::default(); x.len()];
-        let mut guard = BlankingGuard::new(Blanking::Overload, 240_000.0).unwrap();
+        let mut guard = BlankingGuard::new(Blanking::Overload, 240_000.0, 0.0).unwrap();
         guard.process(&x, &mut out);
         let mut m = Measurements::default();
         guard.report(&mut m);
-        assert!(m.warnings[0].contains("front-end overload"), "{:?}", m.warnings);
+        assert!(
+            m.warnings[0].contains("front-end overload"),
+            "{:?}",
+            m.warnings
+        );
         assert_eq!(m.blanked_samples, None);
-        let mut nb = BlankingGuard::new(Blanking::NoiseBlanker, 240_000.0).unwrap();
+        let mut nb = BlankingGuard::new(Blanking::NoiseBlanker, 240_000.0, 0.0).unwrap();
         nb.process(&x, &mut out);
         let mut m = Measurements::default();
         nb.report(&mut m);

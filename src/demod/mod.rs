@@ -36,8 +36,8 @@ pub mod vsb;
 pub use am::{AmDetector, AmReceiver};
 pub use assembly::{assemble, Assembly, Guard, IqGuard};
 pub use audio_notch::AudioNotch;
-pub use blank_guard::{Blanking, BlankingGuard};
 pub use audio_stage::AudioStage;
+pub use blank_guard::{Blanking, BlankingGuard};
 pub use config::{
     LoopSettings, ModeSettings, Notch, ReceiverConfig, ReceiverOptions, Sideband, SsbMethod,
     DEFAULT_AUDIO_RATE_HZ,

@@ -19,9 +19,9 @@ pub mod noise;
 pub mod planner;
 pub mod resampler;
 pub mod rotator;
-pub mod tone_canceller;
 #[cfg(test)]
 pub(crate) mod test_util;
+pub mod tone_canceller;
 
 pub use agc::{Agc, AgcSettings};
 pub use dc_blocker::{dc_blocker_pole, DcBlocker};
@@ -31,8 +31,8 @@ pub use gain::Gain;
 pub use hilbert::{design_hilbert, HilbertFir, HilbertSpec};
 pub use impulse_blanker::{BlankerCount, BlankerSettings, ImpulseBlanker};
 pub use iq_balance::IqBalancer;
-pub use line_canceller::LineCanceller;
 pub use kaiser::{design_lowpass, kaiser_beta, kaiser_num_taps, LowpassSpec};
+pub use line_canceller::LineCanceller;
 pub use mixer::Mixer;
 pub use nco::Nco;
 pub use noise::ComplexNoise;

@@ -38,8 +38,7 @@ impl ToneCanceller {
                 "must be positive and finite",
             ));
         }
-        if !(frequency_hz.is_finite() && frequency_hz > 0.0 && frequency_hz < sample_rate / 2.0)
-        {
+        if !(frequency_hz.is_finite() && frequency_hz > 0.0 && frequency_hz < sample_rate / 2.0) {
             return Err(Error::parameter(
                 "notch_hz",
                 frequency_hz,
