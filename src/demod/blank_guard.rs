@@ -92,15 +92,19 @@ impl IqGuard for BlankingGuard {
             }
             Blanking::Overload if count.detected > 0 => {
                 let largest = if count.largest_ratio.is_finite() {
-                    format!("{:.0} dB", 20.0 * count.largest_ratio.log10())
+                    format!(
+                        "{:.0} dB over the level",
+                        20.0 * count.largest_ratio.log10()
+                    )
                 } else {
                     "not a finite number".to_string()
                 };
+                let n = count.detected;
                 m.warnings.push(format!(
-                    "front-end overload: {} IQ samples ({:.3} ms) were non-finite or more than \
-                     60 dB above the running signal level (largest: {largest}) and were blanked; \
-                     the recording is clipped or corrupt there",
-                    count.detected,
+                    "front-end overload: {n} IQ sample{} ({:.3} ms) non-finite or more than 60 dB \
+                     above the running signal level (largest: {largest}), blanked; the recording \
+                     is clipped or corrupt there",
+                    if n == 1 { "" } else { "s" },
                     count.detected as f64 / self.input_rate * 1e3,
                 ));
             }
