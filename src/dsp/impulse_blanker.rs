@@ -15,10 +15,17 @@
 //! step clamped to ± the threshold (a Huber-type M-estimate: one sample of any size moves it
 //! by at most α·ln K), so the impulses being blanked cannot raise the threshold that finds
 //! them, and a lasting change of level is still followed. Exact zeros (digital silence) and
-//! non-finite samples leave the level alone; non-finite samples are always blanked.
+//! non-finite samples leave the level alone; non-finite samples are always blanked. The first
+//! [`WARM_UP`] non-zero samples set the level by their plain mean (weights 1/n, no clamp, no
+//! detection), so neither a quiet nor a huge first sample decides it; the weight then falls
+//! to the time constant's.
 
 use crate::block::SampleBlock;
 use crate::{Complex32, Error, Result};
+
+/// Non-zero finite samples averaged into the first level before detection starts (common
+/// practice, no source: 32 Rayleigh log-powers give a mean within ±1 dB).
+pub const WARM_UP: u64 = 32;
 
 /// How an [`ImpulseBlanker`] detects and gates impulses.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -88,6 +95,8 @@ pub struct ImpulseBlanker {
     at: usize,
     /// Running mean of log2 |x|², `None` until the first non-zero finite sample.
     level: Option<f64>,
+    /// Non-zero finite samples seen (for the warm-up).
+    seen: u64,
     /// Input index of the next sample, and of the latest detection.
     position: u64,
     last_detection: Option<u64>,
@@ -138,6 +147,7 @@ impl ImpulseBlanker {
             line: vec![Complex32::default(); pre],
             at: 0,
             level: None,
+            seen: 0,
             position: 0,
             last_detection: None,
             count: BlankerCount::default(),
@@ -193,13 +203,16 @@ impl ImpulseBlanker {
             return false;
         }
         let log = power.log2();
-        let Some(level) = self.level else {
-            self.level = Some(log);
+        self.seen += 1;
+        let level = self.level.unwrap_or(log);
+        if self.seen <= WARM_UP {
+            self.level = Some(level + (log - level) / self.seen as f64);
             return false;
-        };
+        }
+        let alpha = self.alpha.max(1.0 / self.seen as f64);
         let over = log - level;
         let step = over.clamp(-self.threshold_log2, self.threshold_log2);
-        self.level = Some(level + self.alpha * step);
+        self.level = Some(level + alpha * step);
         if over > self.threshold_log2 {
             let ratio = (over / 2.0).exp2();
             if ratio > self.count.largest_ratio {
@@ -262,6 +275,7 @@ impl SampleBlock for ImpulseBlanker {
         self.line.fill(Complex32::default());
         self.at = 0;
         self.level = None;
+        self.seen = 0;
         self.position = 0;
         self.last_detection = None;
         self.count = BlankerCount::default();
@@ -388,6 +402,18 @@ mod tests {
         assert!(g.count().largest_ratio.is_infinite());
         let after = g.level().unwrap();
         assert!((after / before).log10().abs() < 0.3, "{before} → {after}");
+    }
+
+    #[test]
+    fn neither_a_quiet_nor_a_huge_first_sample_sets_the_level() {
+        for first in [1e-5f32, 1e6] {
+            let mut g = ImpulseBlanker::new(BlankerSettings::OVERLOAD, RATE).unwrap();
+            let mut x = noise(10_000, 4);
+            x[0] = Complex32::new(first, 0.0);
+            let _ = process_to_vec(&mut g, &x);
+            assert_eq!(g.count().detected, 0, "first sample {first}");
+            assert!((g.level().unwrap().log10()).abs() < 0.3);
+        }
     }
 
     #[test]
