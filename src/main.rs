@@ -1,7 +1,7 @@
 //! `amrx`: the command-line receiver. Argument parsing and wiring only; the work is in the
 //! library.
 
-use amrx::demod::{LoopSettings, Mode, ReceiverOptions, Sideband, SsbMethod, MODES};
+use amrx::demod::{LoopSettings, Mode, Notch, ReceiverOptions, Sideband, SsbMethod, MODES};
 use amrx::dsp::AgcSettings;
 use amrx::io::{InputOptions, SampleFormat};
 use amrx::lab::{self, Axis, SweepSpec};
@@ -107,6 +107,13 @@ struct DemodArgs {
     /// Correct the front end's IQ gain and phase imbalance blindly (removes mirror images).
     #[arg(long)]
     iq_balance: bool,
+    /// Blank impulses (ignition, switching, lightning) on the IQ ahead of the channel filter.
+    #[arg(long)]
+    noise_blanker: bool,
+    /// Notch on the audio: `auto` finds and removes steady whistles, a number removes the tone
+    /// at that audio frequency in Hz.
+    #[arg(long, value_parser = parse_notch)]
+    notch: Option<Notch>,
     /// Fixed audio gain in dB instead of AGC.
     #[arg(long, allow_negative_numbers = true)]
     gain: Option<f64>,
@@ -252,6 +259,11 @@ fn parse_mode(name: &str) -> Result<Mode, String> {
     })
 }
 
+fn parse_notch(text: &str) -> Result<Notch, String> {
+    text.parse()
+        .map_err(|_| format!("'{text}' is neither auto nor an audio frequency in Hz"))
+}
+
 /// The command-line flag for a library parameter name.
 fn flag_for(parameter: &str) -> Option<&'static str> {
     Some(match parameter {
@@ -260,6 +272,7 @@ fn flag_for(parameter: &str) -> Option<&'static str> {
         "bandwidth_hz" => "--bandwidth",
         "audio_rate" => "--audio-rate",
         "sideband" => "--sideband",
+        "notch_hz" => "--notch",
         "carrier_lock" => "--carrier-lock",
         "loop_bandwidth_hz" => "--loop-bandwidth",
         "loop_damping" => "--loop-damping",
@@ -367,6 +380,8 @@ fn receiver_options(args: &DemodArgs) -> ReceiverOptions {
         agc,
         vestige_hz: None,
         iq_balance: args.iq_balance,
+        noise_blanker: args.noise_blanker,
+        notch: args.notch,
     }
 }
 

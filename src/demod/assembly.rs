@@ -1,7 +1,9 @@
 //! The one receiver: front-end guards, a front end, a detector, gain control and the audio
 //! stage, owning the piece loop, delay, reset, flush and channel count for every mode.
 
+use super::audio_notch::AudioNotch;
 use super::audio_stage::AudioStage;
+use super::blank_guard::{Blanking, BlankingGuard};
 use super::config::{ModeSettings, ReceiverConfig};
 use super::detector::{Detector, DetectorContext, ModeDetector};
 use super::front_end::{ChannelFrontEnd, FrontEnd, FrontEndConfig};
@@ -12,8 +14,17 @@ use crate::block::{pieces_bound, Block, PieceWise, PIECE};
 use crate::dsp::Agc;
 use crate::{Complex32, Result};
 
-/// A block on the IQ at the input rate, ahead of the front end (IQ balance, noise blanker).
-pub type Guard = Box<dyn Block<Input = Complex32, Output = Complex32> + Send>;
+/// A block on the IQ at the input rate, ahead of the front end (overload guard, noise
+/// blanker, IQ balance), which may add to the receiver's measurements.
+pub trait IqGuard: Block<Input = Complex32, Output = Complex32> + Send {
+    /// Adds what the guard has seen (counts, warnings) to `m`.
+    fn report(&self, _m: &mut Measurements) {}
+    /// The receiver was retuned to `offset_hz` (relative to the recording centre).
+    fn retune(&mut self, _offset_hz: f64) {}
+}
+
+/// A guard in the assembly's chain.
+pub type Guard = Box<dyn IqGuard>;
 
 /// A receiver: IQ at the input rate in, interleaved audio frames at the audio rate out.
 ///
@@ -45,6 +56,7 @@ pub struct Assembly<D: Detector> {
     detector: D,
     agcs: Vec<Agc>,
     audio: Vec<AudioStage>,
+    notches: Vec<Option<AudioNotch>>,
     guarded: [Vec<Complex32>; 2],
     channel: Vec<Complex32>,
     detected: Vec<Vec<f32>>,
@@ -58,11 +70,22 @@ pub fn assemble<D: ModeDetector>(mode: Mode, config: &ReceiverConfig) -> Result<
 
 impl<D: ModeDetector> Assembly<D> {
     /// The receiver for `mode` with the mode's defaults wherever `config` leaves a choice open:
-    /// the tuner front end, with IQ balancing ahead of it when asked for.
+    /// the tuner front end behind the overload guard, then the noise blanker and IQ balancing
+    /// when asked for.
     pub fn new(mode: Mode, config: &ReceiverConfig) -> Result<Self> {
         let settings = mode.spec().resolve(config)?;
         let front = ChannelFrontEnd::new(FrontEndConfig::for_mode(&settings))?;
-        let mut guards: Vec<Guard> = Vec::new();
+        let rate = settings.input_rate;
+        let at = settings.offset_hz;
+        let mut guards: Vec<Guard> =
+            vec![Box::new(BlankingGuard::new(Blanking::Overload, rate, at)?)];
+        if settings.noise_blanker {
+            guards.push(Box::new(BlankingGuard::new(
+                Blanking::NoiseBlanker,
+                rate,
+                at,
+            )?));
+        }
         if settings.iq_balance {
             guards.push(Box::new(IqBalanceGuard::new(settings.input_rate)?));
         }
@@ -91,6 +114,13 @@ impl<D: Detector> Assembly<D> {
         let agc = |_| Agc::new(settings.agc, rate);
         let stage = |_| AudioStage::new(rate, settings.audio_rate, settings.bandwidth_hz, mid);
         let audio = (0..channels).map(stage).collect::<Result<Vec<_>>>()?;
+        let notch = |_| {
+            settings
+                .notch
+                .map(|n| AudioNotch::new(n, settings.audio_rate))
+                .transpose()
+        };
+        let notches = (0..channels).map(notch).collect::<Result<Vec<_>>>()?;
         let stereo_len = if channels > 1 {
             audio[0].max_output_len(mid)
         } else {
@@ -106,6 +136,7 @@ impl<D: Detector> Assembly<D> {
             detected: vec![vec![0.0; mid]; channels],
             stereo: vec![vec![0.0; stereo_len]; channels],
             audio,
+            notches,
             settings,
             guards,
             front,
@@ -161,6 +192,9 @@ impl<D: Detector> Assembly<D> {
         let mut frames = usize::MAX;
         for c in 0..channels {
             let (_, p) = self.audio[c].process(&self.detected[c][..m], &mut self.stereo[c]);
+            if let Some(notch) = &mut self.notches[c] {
+                notch.apply(&mut self.stereo[c][..p]);
+            }
             frames = frames.min(p);
         }
         for (k, frame) in output[..channels * frames]
@@ -199,7 +233,11 @@ impl<D: Detector> PieceWise for Assembly<D> {
             }
         }
         if self.channels() == 1 {
-            return self.audio[0].process(&self.detected[0][..m], output).1;
+            let p = self.audio[0].process(&self.detected[0][..m], output).1;
+            if let Some(notch) = &mut self.notches[0] {
+                notch.apply(&mut output[..p]);
+            }
+            return p;
         }
         self.interleave(m, output)
     }
@@ -239,6 +277,9 @@ impl<D: Detector> Block for Assembly<D> {
         for audio in &mut self.audio {
             audio.reset();
         }
+        for notch in self.notches.iter_mut().flatten() {
+            notch.reset();
+        }
     }
 }
 
@@ -262,6 +303,9 @@ impl<D: Detector> Receiver for Assembly<D> {
     fn set_offset(&mut self, offset_hz: f64) -> Result<()> {
         let step = offset_hz - self.front.offset_hz();
         self.front.set_offset(offset_hz)?;
+        for guard in &mut self.guards {
+            guard.retune(offset_hz);
+        }
         self.detector.retuned(step);
         Ok(())
     }
@@ -269,6 +313,9 @@ impl<D: Detector> Receiver for Assembly<D> {
     fn measurements(&self) -> Measurements {
         let mut m = Measurements::default();
         self.detector.measure(self.front.as_ref(), &mut m);
+        for guard in &self.guards {
+            guard.report(&mut m);
+        }
         m
     }
 }

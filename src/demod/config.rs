@@ -47,6 +47,33 @@ pub enum SsbMethod {
     Weaver,
 }
 
+/// A notch on the audio.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Notch {
+    /// Find and remove steady whistles (the adaptive line canceller, [`crate::dsp::LineCanceller`]).
+    Auto,
+    /// Remove one tone at this audio frequency in Hz ([`crate::dsp::ToneCanceller`]).
+    At(f64),
+}
+
+impl std::str::FromStr for Notch {
+    type Err = Error;
+
+    /// `auto`, or a frequency in Hz.
+    fn from_str(s: &str) -> Result<Self> {
+        let s = s.trim();
+        if s.eq_ignore_ascii_case("auto") {
+            return Ok(Notch::Auto);
+        }
+        s.parse::<f64>()
+            .ok()
+            .filter(|f| f.is_finite() && *f > 0.0)
+            .map(Notch::At)
+            .ok_or_else(|| Error::parameter("notch_hz", s, "is neither auto nor a frequency in Hz"))
+    }
+}
+
 /// The options of a receiver that do not depend on the recording; `None` keeps the mode's
 /// default from the mode table.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -69,6 +96,10 @@ pub struct ReceiverOptions {
     pub vestige_hz: Option<f64>,
     /// Correct the front end's IQ gain and phase imbalance blindly before receiving.
     pub iq_balance: bool,
+    /// Blank impulses on the IQ ahead of the channel filter.
+    pub noise_blanker: bool,
+    /// A notch on the audio.
+    pub notch: Option<Notch>,
 }
 
 impl Default for ReceiverOptions {
@@ -83,6 +114,8 @@ impl Default for ReceiverOptions {
             agc: None,
             vestige_hz: None,
             iq_balance: false,
+            noise_blanker: false,
+            notch: None,
         }
     }
 }
@@ -139,6 +172,10 @@ pub struct ModeSettings {
     pub vestige_hz: Option<f64>,
     /// Blind IQ-imbalance correction ahead of the front end.
     pub iq_balance: bool,
+    /// Impulse blanking ahead of the front end.
+    pub noise_blanker: bool,
+    /// A notch on the audio.
+    pub notch: Option<Notch>,
 }
 
 impl ModeSettings {

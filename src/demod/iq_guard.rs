@@ -1,6 +1,7 @@
 //! Blind IQ-imbalance correction as a front-end guard: DC blocker, then the adaptive image
 //! canceller ([`IqBalancer`]), on the IQ at the input rate.
 
+use super::assembly::IqGuard;
 use crate::block::Block;
 use crate::dsp::{DcBlocker, IqBalancer};
 use crate::{Complex32, Result};
@@ -61,3 +62,5 @@ impl Block for IqBalanceGuard {
         self.balancer.reset();
     }
 }
+
+impl IqGuard for IqBalanceGuard {}

@@ -14,7 +14,9 @@
 
 pub mod am;
 pub mod assembly;
+pub mod audio_notch;
 pub mod audio_stage;
+pub mod blank_guard;
 pub mod config;
 pub mod detector;
 pub mod diode;
@@ -32,10 +34,12 @@ pub mod ssb_weaver;
 pub mod vsb;
 
 pub use am::{AmDetector, AmReceiver};
-pub use assembly::{assemble, Assembly};
+pub use assembly::{assemble, Assembly, Guard, IqGuard};
+pub use audio_notch::AudioNotch;
 pub use audio_stage::AudioStage;
+pub use blank_guard::{Blanking, BlankingGuard};
 pub use config::{
-    LoopSettings, ModeSettings, ReceiverConfig, ReceiverOptions, Sideband, SsbMethod,
+    LoopSettings, ModeSettings, Notch, ReceiverConfig, ReceiverOptions, Sideband, SsbMethod,
     DEFAULT_AUDIO_RATE_HZ,
 };
 pub use detector::{Detector, DetectorContext, ModeDetector};
@@ -311,6 +315,8 @@ impl ModeSpec {
             loop_damping: o.loop_settings.damping.unwrap_or(DEFAULT_LOOP_DAMPING),
             vestige_hz: o.vestige_hz,
             iq_balance: o.iq_balance,
+            noise_blanker: o.noise_blanker,
+            notch: o.notch,
         })
     }
 

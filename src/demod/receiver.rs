@@ -16,6 +16,8 @@ pub struct Measurements {
     pub cnr_db: Option<f64>,
     /// Peak modulation depth from the detected envelope.
     pub modulation_depth: Option<ModulationDepth>,
+    /// IQ samples the noise blanker set to zero; `None` without a noise blanker.
+    pub blanked_samples: Option<u64>,
     /// Things the user should know (overmodulation, no carrier found, ...).
     pub warnings: Vec<String>,
 }

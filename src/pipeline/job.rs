@@ -207,6 +207,7 @@ fn make_report(
         cnr_db: measured.cnr_db,
         modulation_depth: measured.modulation_depth,
         warnings,
+        blanked_samples: measured.blanked_samples,
     }
 }
 

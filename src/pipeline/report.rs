@@ -38,6 +38,8 @@ pub struct Report {
     pub modulation_depth: Option<ModulationDepth>,
     /// Warnings for the user.
     pub warnings: Vec<String>,
+    /// IQ samples the noise blanker set to zero; `null` without `--noise-blanker`.
+    pub blanked_samples: Option<u64>,
 }
 
 impl Report {
