@@ -7,10 +7,16 @@ use super::detector::{Detector, DetectorContext, ModeDetector};
 use super::front_end::{ChannelFrontEnd, FrontEnd, FrontEndConfig};
 use super::iq_guard::IqBalanceGuard;
 use super::receiver::{Measurements, Receiver};
-use super::Mode;
-use crate::block::{pieces_bound, Block, PieceWise, PIECE};
+use super::{Mode, Transmission};
+use crate::block::{pieces_bound, Block, PieceWise, FLUSH_PIECE, PIECE};
 use crate::dsp::Agc;
+use crate::measure::carrier_meter::DEFAULT_WINDOW_S;
+use crate::measure::{CarrierMeter, MeterSettings, ModulationDepth, WindowReading};
 use crate::{Complex32, Result};
+
+/// Lock fraction of the carrier-present time below which the loop is reported not locked
+/// (common practice, no source).
+const LOCKED_FRACTION: f64 = 0.9;
 
 /// A block on the IQ at the input rate, ahead of the front end (IQ balance, noise blanker).
 pub type Guard = Box<dyn Block<Input = Complex32, Output = Complex32> + Send>;
@@ -49,6 +55,63 @@ pub struct Assembly<D: Detector> {
     channel: Vec<Complex32>,
     detected: Vec<Vec<f32>>,
     stereo: Vec<Vec<f32>>,
+    /// The measurement stage, for modes with a carrier.
+    meter: Option<CarrierMeter>,
+}
+
+/// The measurement stage's settings for a receiver's front end.
+fn meter_settings(settings: &ModeSettings, front: &dyn FrontEnd, window_s: f64) -> MeterSettings {
+    MeterSettings {
+        sample_rate: front.detection_rate(),
+        window_s,
+        bandwidth_hz: settings.bandwidth_hz,
+        search_hz: super::am::search_hz(settings.bandwidth_hz),
+        flat_band_hz: front.flat_band_hz(),
+        channel_noise_bandwidth_hz: front.channel_noise_bandwidth_hz(),
+        settling_samples: front.settling_samples(),
+        time_offset_s: front.delay() / settings.input_rate,
+    }
+}
+
+/// Fills the measurement stage's figures and warnings into `m`.
+fn fill_from_meter(meter: &CarrierMeter, m: &mut Measurements) {
+    let s = meter.summary();
+    let b = meter.settings();
+    m.carrier_present_s = Some(s.carrier_present_s);
+    m.carrier_dbfs = s.carrier_dbfs;
+    m.cnr_db = s.cnr_db;
+    m.cnr_bandwidth_hz = Some(s.cnr_bandwidth_hz);
+    m.modulation_depth = match (s.positive_peak, s.negative_peak) {
+        (Some(positive), Some(negative)) => Some(ModulationDepth { positive, negative }),
+        _ => None,
+    };
+    m.lock_fraction = s.lock_fraction;
+    m.locked = s.lock_fraction.map(|f| f >= LOCKED_FRACTION);
+    if s.measured_s > 0.0 && s.carrier_present_s == 0.0 {
+        m.warnings.push(format!(
+            "no carrier within ±{:.0} Hz of the tuned frequency: the CNR (noise in {:.0} Hz) never reached {} dB in {:.1} s; the readings are of noise",
+            b.search_hz,
+            s.cnr_bandwidth_hz,
+            crate::measure::carrier_meter::CARRIER_ON_CNR_DB,
+            s.measured_s
+        ));
+    }
+    if s.overmodulated_windows > 0 {
+        m.warnings.push(format!(
+            "overmodulation: negative peaks reach {:.0} % in {} of {} windows of {} s with the carrier present: the envelope pinches off",
+            100.0 * s.negative_peak.unwrap_or(1.0),
+            s.overmodulated_windows,
+            s.depth_windows,
+            b.window_s
+        ));
+    }
+    if let Some(f) = s.lock_fraction.filter(|&f| f < LOCKED_FRACTION) {
+        m.warnings.push(format!(
+            "carrier loop did not lock for {:.0} % of the {:.1} s the carrier was present; the audio is not usable while unlocked",
+            100.0 * (1.0 - f),
+            s.carrier_present_s
+        ));
+    }
 }
 
 /// The table's builder for a detector type: see [`super::MODES`].
@@ -87,6 +150,12 @@ impl<D: Detector> Assembly<D> {
             max_piece: mid,
         };
         let detector = make(&settings, &context)?;
+        let meter = match settings.mode.spec().transmission {
+            Transmission::FullCarrier | Transmission::Vestigial => Some(CarrierMeter::new(
+                meter_settings(&settings, front.as_ref(), DEFAULT_WINDOW_S),
+            )?),
+            _ => None,
+        };
         let channels = detector.channels();
         let agc = |_| Agc::new(settings.agc, rate);
         let stage = |_| AudioStage::new(rate, settings.audio_rate, settings.bandwidth_hz, mid);
@@ -106,6 +175,7 @@ impl<D: Detector> Assembly<D> {
             detected: vec![vec![0.0; mid]; channels],
             stereo: vec![vec![0.0; stereo_len]; channels],
             audio,
+            meter,
             settings,
             guards,
             front,
@@ -193,6 +263,12 @@ impl<D: Detector> PieceWise for Assembly<D> {
         let (_, m) = self.front.process(front_input, &mut self.channel);
         self.detector
             .detect(&mut self.channel[..m], &mut self.detected);
+        if let Some(meter) = self.meter.as_mut() {
+            let wide = self.front.wide_view();
+            if wide.len() == m {
+                meter.push(wide, self.detector.envelope(), self.detector.lock_state());
+            }
+        }
         for (agc, plane) in self.agcs.iter_mut().zip(&mut self.detected) {
             for x in &mut plane[..m] {
                 *x = agc.next_sample(*x);
@@ -239,6 +315,30 @@ impl<D: Detector> Block for Assembly<D> {
         for audio in &mut self.audio {
             audio.reset();
         }
+        if let Some(meter) = self.meter.as_mut() {
+            meter.reset();
+        }
+    }
+
+    /// The measurement stage stops at the end of the real input (the zeros that bring out the
+    /// tail are not metered), then the default flush.
+    fn flush(&mut self, output: &mut [f32]) -> usize {
+        if let Some(meter) = self.meter.as_mut() {
+            meter.finish();
+        }
+        let zeros = [Complex32::default(); FLUSH_PIECE];
+        let mut left = self.flush_len();
+        let mut produced = 0;
+        while left > 0 {
+            let n = left.min(FLUSH_PIECE);
+            let (c, p) = self.process(&zeros[..n], &mut output[produced..]);
+            produced += p;
+            left -= c;
+            if c == 0 {
+                break;
+            }
+        }
+        produced
     }
 }
 
@@ -268,7 +368,44 @@ impl<D: Detector> Receiver for Assembly<D> {
 
     fn measurements(&self) -> Measurements {
         let mut m = Measurements::default();
+        if let Some(meter) = &self.meter {
+            fill_from_meter(meter, &mut m);
+        }
         self.detector.measure(self.front.as_ref(), &mut m);
+        if m.cnr_db.is_some() && m.cnr_bandwidth_hz.is_none() {
+            // Every detector's CNR is FrontEnd::cnr_db's: noise in twice the bandwidth.
+            m.cnr_bandwidth_hz = Some(2.0 * self.settings.bandwidth_hz);
+        }
         m
+    }
+
+    fn meter_summary(&self) -> Option<crate::measure::MeterSummary> {
+        self.meter.as_ref().map(CarrierMeter::summary)
+    }
+
+    fn set_meter_window(&mut self, window_s: f64) -> Result<()> {
+        if let Some(meter) = self.meter.as_mut() {
+            let mut fresh = CarrierMeter::new(meter_settings(
+                &self.settings,
+                self.front.as_ref(),
+                window_s,
+            ))?;
+            fresh.record_windows(meter.is_recording());
+            *meter = fresh;
+        }
+        Ok(())
+    }
+
+    fn record_windows(&mut self, on: bool) {
+        if let Some(meter) = self.meter.as_mut() {
+            meter.record_windows(on);
+        }
+    }
+
+    fn take_windows(&mut self) -> Vec<WindowReading> {
+        self.meter
+            .as_mut()
+            .map(CarrierMeter::take_windows)
+            .unwrap_or_default()
     }
 }

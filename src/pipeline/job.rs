@@ -169,7 +169,11 @@ fn make_report(
         audio_channels: channels,
         carrier_offset_hz: measured.carrier_offset_hz,
         locked: measured.locked,
+        lock_fraction: measured.lock_fraction,
         cnr_db: measured.cnr_db,
+        cnr_bandwidth_hz: measured.cnr_bandwidth_hz,
+        carrier_dbfs: measured.carrier_dbfs,
+        carrier_present_s: measured.carrier_present_s,
         modulation_depth: measured.modulation_depth,
         warnings,
     }
