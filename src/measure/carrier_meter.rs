@@ -25,8 +25,7 @@
 //!   no source), then corrected for noise (see [`noise_corrected_peak`]).
 //!
 //! A window gives depth only when the carrier is present, steady (starts, stops and deep fast
-//! fades are left out), the loop (if any)
-//! was locked throughout and at least half the window was past the filters' settling. Steady is
+//! fades are left out), the loop (if any) was locked throughout it and the window before and at least half the window was past the filters' settling. Steady is
 //! the reference within 2 dB (min/max ≥ 0.8) over the window, our choice, no source: a 20 dB
 //! fade over 2 s passes (1 dB per window), the edge of a start or a stop does not.
 
@@ -180,6 +179,8 @@ pub struct CarrierMeter {
     reference_min: f64,
     reference_max: f64,
     lock_all: Option<bool>,
+    /// Whether the loop was locked throughout the previous window.
+    locked_before: bool,
     present: bool,
     finished: bool,
     summary: Accumulated,
@@ -272,6 +273,7 @@ impl CarrierMeter {
             reference_min: f64::INFINITY,
             reference_max: 0.0,
             lock_all: None,
+            locked_before: false,
             present: false,
             finished: false,
             summary: Accumulated::default(),
@@ -392,6 +394,7 @@ impl CarrierMeter {
         self.reference_sum = 0.0;
         self.reference_min = f64::INFINITY;
         self.reference_max = 0.0;
+        self.locked_before = self.lock_all == Some(true);
         self.lock_all = None;
     }
 
@@ -440,7 +443,13 @@ impl CarrierMeter {
         reading.cnr_db = cnr_ok.filter(|c| c.is_finite()).or(Some(f64::MAX.log10()));
         let steady = self.reference_min >= STEADY_RATIO * self.reference_max;
         let enough = self.ratios.len() * 2 >= self.window_len;
-        if !(steady && enough && carrier > 0.0 && self.lock_all != Some(false)) {
+        // A loop must have held lock for a whole window first: a loop that has just locked
+        // is still settling its phase (measured: the first locked window read 0.525 for 0.5).
+        let lock_ok = match self.lock_all {
+            None => true,
+            Some(all) => all && self.locked_before,
+        };
+        if !(steady && enough && carrier > 0.0 && lock_ok) {
             return reading;
         }
         let mean_reference = self.reference_sum / self.ratios.len() as f64;
