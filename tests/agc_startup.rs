@@ -16,9 +16,8 @@ fn no_mode_overshoots_full_scale_at_start_up() {
         .map(|i| {
             let t = i as f64 / RATE;
             let a = 0.3 + 0.2 * (std::f64::consts::TAU * 700.0 * t).cos();
-            let s = Complex32::from_polar(a as f32, 0.0)
-                + Complex32::from_polar(0.2, (std::f64::consts::TAU * 1000.0 * t) as f32);
-            s
+            Complex32::from_polar(a as f32, 0.0)
+                + Complex32::from_polar(0.2, (std::f64::consts::TAU * 1000.0 * t) as f32)
         })
         .collect();
     let limit = 10f32.powf(1.0 / 20.0);

@@ -19,7 +19,7 @@ fn recording(dir: &std::path::Path) -> String {
         }
     }
     amrx::dsp::ComplexNoise::new(1e-7, 9).add_to(&mut samples);
-    write_sigmf(dir, "station", SampleFormat::Cf32, RATE, &samples)
+    write_sigmf(dir, "station", SampleFormat::Cf32Le, RATE, &samples)
         .display()
         .to_string()
 }

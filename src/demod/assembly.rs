@@ -14,9 +14,12 @@ use crate::measure::carrier_meter::DEFAULT_WINDOW_S;
 use crate::measure::{CarrierMeter, MeterSettings, ModulationDepth, WindowReading};
 use crate::{Complex32, Result};
 
-/// Lock fraction of the carrier-present time below which the loop is reported not locked
-/// (common practice, no source).
+/// Lock fraction of the carrier-present time below which a warning is given (common
+/// practice, no source).
 const LOCKED_FRACTION: f64 = 0.9;
+/// Unlocked carrier-present time allowed for acquisition before the warning (common
+/// practice, no source).
+const ACQUISITION_ALLOWANCE_S: f64 = 0.5;
 
 /// A block on the IQ at the input rate, ahead of the front end (IQ balance, noise blanker).
 pub type Guard = Box<dyn Block<Input = Complex32, Output = Complex32> + Send>;
@@ -86,7 +89,6 @@ fn fill_from_meter(meter: &CarrierMeter, m: &mut Measurements) {
         _ => None,
     };
     m.lock_fraction = s.lock_fraction;
-    m.locked = s.lock_fraction.map(|f| f >= LOCKED_FRACTION);
     if s.measured_s > 0.0 && s.carrier_present_s == 0.0 {
         m.warnings.push(format!(
             "no carrier within ±{:.0} Hz of the tuned frequency: the CNR (noise in {:.0} Hz) never reached {} dB in {:.1} s; the readings are of noise",
@@ -105,12 +107,58 @@ fn fill_from_meter(meter: &CarrierMeter, m: &mut Measurements) {
             b.window_s
         ));
     }
-    if let Some(f) = s.lock_fraction.filter(|&f| f < LOCKED_FRACTION) {
+    // Acquisition takes a few windows: only a loop unlocked for longer than that is news.
+    let unlocked_s = s
+        .lock_fraction
+        .map_or(0.0, |f| (1.0 - f) * s.carrier_present_s);
+    if let Some(f) = s
+        .lock_fraction
+        .filter(|&f| f < LOCKED_FRACTION && unlocked_s > ACQUISITION_ALLOWANCE_S)
+    {
         m.warnings.push(format!(
             "carrier loop did not lock for {:.0} % of the {:.1} s the carrier was present; the audio is not usable while unlocked",
             100.0 * (1.0 - f),
             s.carrier_present_s
         ));
+    }
+}
+
+/// A "carrier" within this of the recording centre may be the receiver's DC offset.
+const CENTRE_SPIKE_HZ: f64 = 1.0;
+/// Below this positive peak a line at the centre is taken for the DC offset (our choice, no
+/// source: a station's programme modulates more; the DC offset does not at all).
+const CENTRE_SPIKE_DEPTH: f64 = 0.1;
+
+/// A steady, unmodulated line at the recording centre is the receiver's DC offset (the local
+/// oscillator leaking through), not a station: the carrier figures are withdrawn with a
+/// warning. A modulated carrier there is kept, with a warning that the offset adds to it.
+fn centre_spike_is_no_station(m: &mut Measurements) {
+    let at_centre = m
+        .carrier_offset_hz
+        .is_some_and(|f| f.abs() < CENTRE_SPIKE_HZ);
+    if !at_centre || m.carrier_present_s.is_none_or(|s| s == 0.0) {
+        return;
+    }
+    let modulated = m
+        .modulation_depth
+        .is_some_and(|d| d.positive.max(d.negative) >= CENTRE_SPIKE_DEPTH);
+    if modulated {
+        m.warnings.push(
+            "the carrier lies on the recording's centre, where the receiver's DC offset adds to it: level, CNR and depth include the offset".to_string(),
+        );
+        return;
+    }
+    m.warnings.push(format!(
+        "no carrier: the only line at the tuning is the recording's centre spike ({} dBFS, unmodulated), the receiver's DC offset, not a station",
+        m.carrier_dbfs.map_or("-".to_string(), |d| format!("{d:.1}"))
+    ));
+    m.carrier_present_s = Some(0.0);
+    m.carrier_dbfs = None;
+    m.cnr_db = None;
+    m.modulation_depth = None;
+    m.lock_fraction = None;
+    if m.locked.is_some() {
+        m.locked = Some(false);
     }
 }
 
@@ -372,6 +420,9 @@ impl<D: Detector> Receiver for Assembly<D> {
             fill_from_meter(meter, &mut m);
         }
         self.detector.measure(self.front.as_ref(), &mut m);
+        if self.meter.is_some() {
+            centre_spike_is_no_station(&mut m);
+        }
         if m.cnr_db.is_some() && m.cnr_bandwidth_hz.is_none() {
             // Every detector's CNR is FrontEnd::cnr_db's: noise in twice the bandwidth.
             m.cnr_bandwidth_hz = Some(2.0 * self.settings.bandwidth_hz);

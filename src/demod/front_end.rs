@@ -109,7 +109,7 @@ impl ChannelFrontEnd {
     /// Builds the front end; the tuning offset must lie inside ±rate/2 with the channel.
     ///
     /// ```
-    /// use amrx::demod::front_end::{ChannelFrontEnd, FrontEndConfig};
+    /// use amrx::demod::front_end::{ChannelFrontEnd, FrontEnd, FrontEndConfig};
     /// let fe = ChannelFrontEnd::new(FrontEndConfig {
     ///     input_rate: 2_400_000.0,
     ///     offset_hz: 100_000.0,

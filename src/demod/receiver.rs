@@ -10,8 +10,8 @@ use serde::Serialize;
 pub struct Measurements {
     /// Measured carrier frequency relative to the recording centre, in Hz.
     pub carrier_offset_hz: Option<f64>,
-    /// Lock verdict: locked for at least 90 % of the carrier-present time (for loop modes
-    /// with a carrier; else the loop's state at the end); `None` for modes without a loop.
+    /// Whether the loop is locked at the end (false when there is no carrier); `None` for modes
+    /// without a loop. `lock_fraction` says for how much of the carrier's time.
     pub locked: Option<bool>,
     /// Fraction of the carrier-present time the loop was locked; `None` without a loop or a
     /// carrier.

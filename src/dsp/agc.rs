@@ -149,7 +149,8 @@ impl Agc {
             return x * self.fixed_gain;
         }
         let magnitude = x.abs();
-        if magnitude > self.level {
+        if magnitude >= self.level {
+            // At or above the level: attack, and the hang starts again.
             self.level += self.attack * (magnitude - self.level);
             self.hang_left = self.hang_samples;
         } else if self.hang_left > 0 {

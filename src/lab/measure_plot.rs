@@ -107,6 +107,29 @@ fn draw(timeline: &Timeline, limits: Limits, title: &str, path: &Path) -> DrawRe
         .draw_series([Rectangle::new([(t0, -y), (t0, -y)], TROUBLE.filled())])?
         .label("over a limit or overmodulated (pink)")
         .legend(|(x, yy)| Rectangle::new([(x, yy - 6), (x + 20, yy + 6)], TROUBLE.filled()));
+    chart.draw_series(LineSeries::new(
+        [(t0, 0.0), (t1, 0.0)],
+        BLACK.stroke_width(1),
+    ))?;
+    for (value, sign, name) in [
+        (limits.positive, 1.0, "positive limit"),
+        (limits.negative, -1.0, "negative limit"),
+    ] {
+        if let Some(l) = value {
+            let level = sign * 100.0 * l;
+            chart.draw_series(DashedLineSeries::new(
+                [(t0, level), (t1, level)],
+                8,
+                5,
+                LIMIT.stroke_width(2),
+            ))?;
+            chart.draw_series([Text::new(
+                format!("{name} {:.0} %", 100.0 * l),
+                (t0 + 0.01 * (t1 - t0), level + sign * 0.03 * y),
+                ("sans-serif", 15).into_font().color(&LIMIT),
+            )])?;
+        }
+    }
     let series = |sign: f64, pick: fn(&crate::measure::WindowReading) -> Option<f64>| {
         let mut lines: Vec<Vec<(f64, f64)>> = vec![Vec::new()];
         for win in w {
@@ -137,32 +160,9 @@ fn draw(timeline: &Timeline, limits: Limits, title: &str, path: &Path) -> DrawRe
             });
         }
     }
-    chart.draw_series(LineSeries::new(
-        [(t0, 0.0), (t1, 0.0)],
-        BLACK.stroke_width(1),
-    ))?;
-    for (value, sign, name) in [
-        (limits.positive, 1.0, "positive limit"),
-        (limits.negative, -1.0, "negative limit"),
-    ] {
-        if let Some(l) = value {
-            let level = sign * 100.0 * l;
-            chart.draw_series(DashedLineSeries::new(
-                [(t0, level), (t1, level)],
-                8,
-                5,
-                LIMIT.stroke_width(2),
-            ))?;
-            chart.draw_series([Text::new(
-                format!("{name} {:.0} %", 100.0 * l),
-                (t0 + 0.01 * (t1 - t0), level + sign * 0.03 * y),
-                ("sans-serif", 15).into_font().color(&LIMIT),
-            )])?;
-        }
-    }
     chart
         .configure_series_labels()
-        .position(SeriesLabelPosition::UpperRight)
+        .position(SeriesLabelPosition::LowerRight)
         .background_style(WHITE.mix(0.85))
         .border_style(BLACK)
         .label_font(("sans-serif", 14))

@@ -671,8 +671,11 @@ mod tests {
                 (z, z.norm())
             })
             .unzip();
+        // The envelope here is of the unfiltered signal: its noise bandwidth is the whole rate.
+        let mut unfiltered = settings();
+        unfiltered.channel_noise_bandwidth_hz = fs;
         let run = |cuts: &[usize]| {
-            let mut m = CarrierMeter::new(settings()).unwrap();
+            let mut m = CarrierMeter::new(unfiltered).unwrap();
             m.record_windows(true);
             let mut at = 0;
             for &c in cuts.iter().chain(std::iter::once(&wide.len())) {

@@ -30,8 +30,8 @@ pub struct Report {
     pub audio_channels: usize,
     /// Measured carrier frequency relative to the recording centre, in Hz.
     pub carrier_offset_hz: Option<f64>,
-    /// Locked for at least 90 % of the carrier-present time; `null` where the mode has no
-    /// loop.
+    /// Whether the loop is locked at the end (false without a carrier); `null` where the
+    /// mode has no loop. `lock_fraction` says for how much of the carrier's time.
     pub locked: Option<bool>,
     /// Fraction of the carrier-present time the loop was locked; `null` without a loop or
     /// without a carrier.
