@@ -5,9 +5,12 @@ use amrx::demod::{LoopSettings, Mode, Notch, ReceiverOptions, Sideband, SsbMetho
 use amrx::dsp::AgcSettings;
 use amrx::io::{InputOptions, SampleFormat};
 use amrx::lab::{self, Axis, SweepSpec};
+use amrx::measure::Limits;
 use amrx::pipeline::demo::{default_demo_dir, run_demo, DemoRow};
 use amrx::pipeline::synth_job::run_scene;
-use amrx::pipeline::{info, run_demod, AudioTarget, DemodRequest, Tuning};
+use amrx::pipeline::{
+    info, run_demod, run_measure, AudioTarget, DemodRequest, MeasureRequest, Tuning,
+};
 use amrx::Error;
 use clap::{Args, Parser, Subcommand, ValueEnum};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
@@ -27,6 +30,8 @@ struct Cli {
 enum Command {
     /// Demodulate one emission from an IQ recording to audio.
     Demod(DemodArgs),
+    /// Measure a full-carrier station over time: carrier, CNR, modulation peaks, events.
+    Measure(MeasureArgs),
     /// Show what a recording holds.
     Info {
         /// The recording (SigMF, IQ WAV, raw file or - for standard input).
@@ -134,6 +139,52 @@ struct DemodArgs {
 }
 
 #[derive(Args, Debug)]
+struct MeasureArgs {
+    /// The IQ input (NAME.sigmf-meta or NAME.sigmf-data, an IQ WAV, a raw file, or -).
+    input: PathBuf,
+    /// Carrier frequency relative to the recording centre, in Hz.
+    #[arg(
+        long,
+        allow_negative_numbers = true,
+        conflicts_with = "carrier",
+        required_unless_present = "carrier"
+    )]
+    offset: Option<f64>,
+    /// Absolute carrier frequency in Hz (needs the recording's centre frequency).
+    #[arg(long, allow_negative_numbers = true)]
+    carrier: Option<f64>,
+    /// Audio (message) bandwidth in Hz; the CNR is quoted in twice this (default 5000).
+    #[arg(long, allow_negative_numbers = true)]
+    bandwidth: Option<f64>,
+    /// Measurement window in seconds.
+    #[arg(long, allow_negative_numbers = true, default_value_t = 0.1)]
+    window: f64,
+    /// Positive peak limit in percent (take it from the station's licence), e.g. 125.
+    #[arg(long, allow_negative_numbers = true)]
+    limit_positive: Option<f64>,
+    /// Negative peak limit in percent (take it from the station's licence), e.g. 100.
+    #[arg(long, allow_negative_numbers = true)]
+    limit_negative: Option<f64>,
+    /// Write windows, events and summary as JSON (fractions, 1.0 = 100 %).
+    #[arg(long)]
+    json: Option<PathBuf>,
+    /// Write one CSV row per window.
+    #[arg(long)]
+    csv: Option<PathBuf>,
+    /// Draw peaks, limits, carrier level and events as a PNG.
+    #[arg(long)]
+    png: Option<PathBuf>,
+    /// Seconds of input to skip first.
+    #[arg(long, allow_negative_numbers = true, default_value_t = 0.0)]
+    start: f64,
+    /// Seconds to measure (default: to the end).
+    #[arg(long, allow_negative_numbers = true)]
+    duration: Option<f64>,
+    #[command(flatten)]
+    input_options: InputArgs,
+}
+
+#[derive(Args, Debug)]
 struct SweepArgs {
     /// Detectors, comma-separated: am, sam, dsb, usb, lsb, diode, diode:RC_MICROSECONDS.
     #[arg(long, default_value = "am,sam,dsb,usb")]
@@ -220,6 +271,7 @@ fn main() -> ExitCode {
     let cli = Cli::parse();
     let outcome = match cli.command {
         Command::Demod(args) => demod(args),
+        Command::Measure(args) => measure(&args),
         Command::Info {
             input,
             input_options,
@@ -288,6 +340,11 @@ fn flag_for(parameter: &str) -> Option<&'static str> {
         "tone_hz" => "--tone",
         "mu" => "--mu",
         "range_db" | "input_db" => "--from/--to/--step",
+        "window_s" => "--window",
+        "start_s" => "--start",
+        "duration_s" => "--duration",
+        "limit_positive" => "--limit-positive",
+        "limit_negative" => "--limit-negative",
         _ => return None,
     })
 }
@@ -344,10 +401,60 @@ fn demod(args: DemodArgs) -> Result<(), String> {
         run_demod(&request, &|n| bar.set_position(n)).map_err(|e| with_input(&args.input, e));
     bar.finish_and_clear();
     let report = report?;
-    if !args.quiet {
-        for warning in &report.warnings {
-            eprintln!("amrx: warning: {}: {warning}", args.input.display());
-        }
+    // --quiet hides the progress bar only: warnings always reach stderr.
+    for warning in &report.warnings {
+        eprintln!("amrx: warning: {}: {warning}", args.input.display());
+    }
+    Ok(())
+}
+
+fn measure(args: &MeasureArgs) -> Result<(), String> {
+    let tuning = match (args.offset, args.carrier) {
+        (Some(offset), _) => Tuning::Offset(offset),
+        (None, Some(carrier)) => Tuning::Carrier(carrier),
+        (None, None) => Tuning::Centre,
+    };
+    let limits = Limits {
+        positive: args.limit_positive.map(|p| p / 100.0),
+        negative: args.limit_negative.map(|p| p / 100.0),
+    };
+    let request = MeasureRequest {
+        input: args.input.clone(),
+        input_options: args.input_options.options(),
+        tuning,
+        bandwidth_hz: args.bandwidth,
+        window_s: args.window,
+        limits,
+        start_s: args.start,
+        duration_s: args.duration,
+    };
+    let bar = progress_bar(false, "samples");
+    let outcome = run_measure(&request, &|n| bar.set_position(n));
+    bar.finish_and_clear();
+    let outcome = outcome.map_err(|e| with_input(&args.input, e))?;
+    for warning in &outcome.warnings {
+        eprintln!("amrx: warning: {}: {warning}", args.input.display());
+    }
+    let timeline = &outcome.timeline;
+    if let Some(path) = &args.json {
+        timeline.write_json(path).map_err(|e| e.to_string())?;
+    }
+    if let Some(path) = &args.csv {
+        timeline.write_csv(path).map_err(|e| e.to_string())?;
+    }
+    if let Some(path) = &args.png {
+        let name = args.input.file_name().map_or_else(
+            || args.input.display().to_string(),
+            |n| n.to_string_lossy().into_owned(),
+        );
+        let title = format!(
+            "{name}, tuned {:+.0} Hz: modulation peaks and carrier, {} s windows",
+            outcome.offset_hz, args.window
+        );
+        lab::write_measure_png(timeline, limits, &title, path).map_err(|e| e.to_string())?;
+    }
+    for line in timeline.verdict_lines(limits) {
+        println!("{line}");
     }
     Ok(())
 }
@@ -415,19 +522,21 @@ fn synth(scene: &Path, out: &Path, datatype: Option<SampleFormat>) -> Result<(),
         summary.sample_rate,
         summary.noise_power
     );
+    // CNR = C/(N0·2W), noise counted in 2W ("in Hz"), the definition demod's report uses.
     println!(
-        "{:<16} {:>13} {:>13} {:>13} {:>8} {:>8}",
-        "emission", "carrier Hz", "lower Hz", "upper Hz", "CNR dB", "SNR dB"
+        "{:<16} {:>13} {:>13} {:>13} {:>8} {:>8} {:>8}",
+        "emission", "carrier Hz", "lower Hz", "upper Hz", "CNR dB", "in Hz", "SNR dB"
     );
     for e in &summary.emissions {
         let db = |v: Option<f64>| v.map_or("-".to_string(), |x| format!("{x:.1}"));
         println!(
-            "{:<16} {:>13.1} {:>13.1} {:>13.1} {:>8} {:>8}",
+            "{:<16} {:>13.1} {:>13.1} {:>13.1} {:>8} {:>8.0} {:>8}",
             e.label,
             e.carrier_hz,
             e.lower_edge_hz,
             e.upper_edge_hz,
             db(e.cnr_db),
+            e.cnr_bandwidth_hz,
             db(e.snr_db)
         );
     }
@@ -476,17 +585,19 @@ fn demo(dir: PathBuf) -> Result<(), String> {
         recording.display()
     );
     println!(
-        "{:<8} {:<4} {:>10} {:>11} {:>5} {:>7} {:>6} {:>6} {:>8} {:>7}  notes",
+        "{:<8} {:<4} {:>10} {:>11} {:>5} {:>9} {:>7} {:>6} {:>6} {:>6} {:>8} {:>9}  notes",
         "station",
         "mode",
         "offset Hz",
         "carrier Hz",
         "lock",
+        "carr dBFS",
         "CNR dB",
-        "mod+",
-        "mod-",
+        "in Hz",
+        "mod+ %",
+        "mod- %",
         "tone Hz",
-        "SINAD"
+        "SINAD dB"
     );
     for row in &rows {
         println!("{}", demo_line(row));
@@ -505,8 +616,8 @@ fn demo_line(row: &DemoRow) -> String {
     );
     match &row.outcome {
         Err(why) => format!(
-            "{head} {:>11} {:>5} {:>7} {:>6} {:>6} {:>8} {:>7}  {why}",
-            "-", "-", "-", "-", "-", "-", "-"
+            "{head} {:>11} {:>5} {:>9} {:>7} {:>6} {:>6} {:>6} {:>8} {:>9}  {why}",
+            "-", "-", "-", "-", "-", "-", "-", "-", "-"
         ),
         Ok(rx) => {
             let r = &rx.report;
@@ -515,10 +626,12 @@ fn demo_line(row: &DemoRow) -> String {
             };
             let depth = r.modulation_depth;
             format!(
-                "{head} {:>11} {:>5} {:>7} {:>6} {:>6} {:>8} {:>7}  {}",
+                "{head} {:>11} {:>5} {:>9} {:>7} {:>6} {:>6} {:>6} {:>8} {:>9}  {}",
                 opt(r.carrier_offset_hz, 1),
                 r.locked.map_or("-", |l| if l { "yes" } else { "no" }),
+                opt(r.carrier_dbfs, 1),
                 opt(r.cnr_db, 1),
+                opt(r.cnr_bandwidth_hz, 0),
                 opt(depth.map(|d| 100.0 * d.positive), 0),
                 opt(depth.map(|d| 100.0 * d.negative), 0),
                 opt(rx.tone_hz, 1),

@@ -112,7 +112,7 @@ pub trait PieceWise {
 }
 
 /// Zeros fed per call by [`Block::flush`].
-const FLUSH_PIECE: usize = 256;
+pub(crate) const FLUSH_PIECE: usize = 256;
 
 /// A block that maps each input sample to exactly one output sample: write `next` and get
 /// [`Block`] for free (rate 1, the slice loop, the output bound).

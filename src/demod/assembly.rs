@@ -9,10 +9,19 @@ use super::detector::{Detector, DetectorContext, ModeDetector};
 use super::front_end::{ChannelFrontEnd, FrontEnd, FrontEndConfig};
 use super::iq_guard::IqBalanceGuard;
 use super::receiver::{Measurements, Receiver};
-use super::Mode;
-use crate::block::{pieces_bound, Block, PieceWise, PIECE};
+use super::{Mode, Transmission};
+use crate::block::{pieces_bound, Block, PieceWise, FLUSH_PIECE, PIECE};
 use crate::dsp::Agc;
+use crate::measure::carrier_meter::DEFAULT_WINDOW_S;
+use crate::measure::{CarrierMeter, MeterSettings, ModulationDepth, WindowReading};
 use crate::{Complex32, Result};
+
+/// Lock fraction of the carrier-present time below which a warning is given (common
+/// practice, no source).
+const LOCKED_FRACTION: f64 = 0.9;
+/// Unlocked carrier-present time allowed for acquisition before the warning (common
+/// practice, no source).
+const ACQUISITION_ALLOWANCE_S: f64 = 0.5;
 
 /// A block on the IQ at the input rate, ahead of the front end (overload guard, noise
 /// blanker, IQ balance), which may add to the receiver's measurements.
@@ -61,6 +70,108 @@ pub struct Assembly<D: Detector> {
     channel: Vec<Complex32>,
     detected: Vec<Vec<f32>>,
     stereo: Vec<Vec<f32>>,
+    /// The measurement stage, for modes with a carrier.
+    meter: Option<CarrierMeter>,
+}
+
+/// The measurement stage's settings for a receiver's front end.
+fn meter_settings(settings: &ModeSettings, front: &dyn FrontEnd, window_s: f64) -> MeterSettings {
+    MeterSettings {
+        sample_rate: front.detection_rate(),
+        window_s,
+        bandwidth_hz: settings.bandwidth_hz,
+        search_hz: super::am::search_hz(settings.bandwidth_hz),
+        flat_band_hz: front.flat_band_hz(),
+        channel_noise_bandwidth_hz: front.channel_noise_bandwidth_hz(),
+        settling_samples: front.settling_samples(),
+        time_offset_s: front.delay() / settings.input_rate,
+    }
+}
+
+/// Fills the measurement stage's figures and warnings into `m`.
+fn fill_from_meter(meter: &CarrierMeter, m: &mut Measurements) {
+    let s = meter.summary();
+    let b = meter.settings();
+    m.carrier_present_s = Some(s.carrier_present_s);
+    m.carrier_dbfs = s.carrier_dbfs;
+    m.cnr_db = s.cnr_db;
+    m.cnr_bandwidth_hz = Some(s.cnr_bandwidth_hz);
+    m.modulation_depth = match (s.positive_peak, s.negative_peak) {
+        (Some(positive), Some(negative)) => Some(ModulationDepth { positive, negative }),
+        _ => None,
+    };
+    m.lock_fraction = s.lock_fraction;
+    if s.measured_s > 0.0 && s.carrier_present_s == 0.0 {
+        m.warnings.push(format!(
+            "no carrier within ±{:.0} Hz of the tuned frequency: the CNR (noise in {:.0} Hz) never reached {} dB in {:.1} s; the readings are of noise",
+            b.search_hz,
+            s.cnr_bandwidth_hz,
+            crate::measure::carrier_meter::CARRIER_ON_CNR_DB,
+            s.measured_s
+        ));
+    }
+    if s.overmodulated_windows > 0 {
+        m.warnings.push(format!(
+            "overmodulation: negative peaks reach {:.0} % in {} of {} windows of {} s with the carrier present: the envelope pinches off",
+            100.0 * s.negative_peak.unwrap_or(1.0),
+            s.overmodulated_windows,
+            s.depth_windows,
+            b.window_s
+        ));
+    }
+    // Acquisition takes a few windows: only a loop unlocked for longer than that is news.
+    let unlocked_s = s
+        .lock_fraction
+        .map_or(0.0, |f| (1.0 - f) * s.carrier_present_s);
+    if let Some(f) = s
+        .lock_fraction
+        .filter(|&f| f < LOCKED_FRACTION && unlocked_s > ACQUISITION_ALLOWANCE_S)
+    {
+        m.warnings.push(format!(
+            "carrier loop did not lock for {:.0} % of the {:.1} s the carrier was present; the audio is not usable while unlocked",
+            100.0 * (1.0 - f),
+            s.carrier_present_s
+        ));
+    }
+}
+
+/// A "carrier" within this of the recording centre may be the receiver's DC offset.
+const CENTRE_SPIKE_HZ: f64 = 1.0;
+/// Below this positive peak a line at the centre is taken for the DC offset (our choice, no
+/// source: a station's programme modulates more; the DC offset does not at all).
+const CENTRE_SPIKE_DEPTH: f64 = 0.1;
+
+/// A steady, unmodulated line at the recording centre is the receiver's DC offset (the local
+/// oscillator leaking through), not a station: the carrier figures are withdrawn with a
+/// warning. A modulated carrier there is kept, with a warning that the offset adds to it.
+fn centre_spike_is_no_station(m: &mut Measurements) {
+    let at_centre = m
+        .carrier_offset_hz
+        .is_some_and(|f| f.abs() < CENTRE_SPIKE_HZ);
+    if !at_centre || m.carrier_present_s.is_none_or(|s| s == 0.0) {
+        return;
+    }
+    let modulated = m
+        .modulation_depth
+        .is_some_and(|d| d.positive.max(d.negative) >= CENTRE_SPIKE_DEPTH);
+    if modulated {
+        m.warnings.push(
+            "the carrier lies on the recording's centre, where the receiver's DC offset adds to it: level, CNR and depth include the offset".to_string(),
+        );
+        return;
+    }
+    m.warnings.push(format!(
+        "no carrier: the only line at the tuning is the recording's centre spike ({} dBFS, unmodulated), the receiver's DC offset, not a station",
+        m.carrier_dbfs.map_or("-".to_string(), |d| format!("{d:.1}"))
+    ));
+    m.carrier_present_s = Some(0.0);
+    m.carrier_dbfs = None;
+    m.cnr_db = None;
+    m.modulation_depth = None;
+    m.lock_fraction = None;
+    if m.locked.is_some() {
+        m.locked = Some(false);
+    }
 }
 
 /// The table's builder for a detector type: see [`super::MODES`].
@@ -110,6 +221,12 @@ impl<D: Detector> Assembly<D> {
             max_piece: mid,
         };
         let detector = make(&settings, &context)?;
+        let meter = match settings.mode.spec().transmission {
+            Transmission::FullCarrier | Transmission::Vestigial => Some(CarrierMeter::new(
+                meter_settings(&settings, front.as_ref(), DEFAULT_WINDOW_S),
+            )?),
+            _ => None,
+        };
         let channels = detector.channels();
         let agc = |_| Agc::new(settings.agc, rate);
         let stage = |_| AudioStage::new(rate, settings.audio_rate, settings.bandwidth_hz, mid);
@@ -137,6 +254,7 @@ impl<D: Detector> Assembly<D> {
             stereo: vec![vec![0.0; stereo_len]; channels],
             audio,
             notches,
+            meter,
             settings,
             guards,
             front,
@@ -227,6 +345,12 @@ impl<D: Detector> PieceWise for Assembly<D> {
         let (_, m) = self.front.process(front_input, &mut self.channel);
         self.detector
             .detect(&mut self.channel[..m], &mut self.detected);
+        if let Some(meter) = self.meter.as_mut() {
+            let wide = self.front.wide_view();
+            if wide.len() == m {
+                meter.push(wide, self.detector.envelope(), self.detector.lock_state());
+            }
+        }
         for (agc, plane) in self.agcs.iter_mut().zip(&mut self.detected) {
             for x in &mut plane[..m] {
                 *x = agc.next_sample(*x);
@@ -280,6 +404,30 @@ impl<D: Detector> Block for Assembly<D> {
         for notch in self.notches.iter_mut().flatten() {
             notch.reset();
         }
+        if let Some(meter) = self.meter.as_mut() {
+            meter.reset();
+        }
+    }
+
+    /// The measurement stage stops at the end of the real input (the zeros that bring out the
+    /// tail are not metered), then the default flush.
+    fn flush(&mut self, output: &mut [f32]) -> usize {
+        if let Some(meter) = self.meter.as_mut() {
+            meter.finish();
+        }
+        let zeros = [Complex32::default(); FLUSH_PIECE];
+        let mut left = self.flush_len();
+        let mut produced = 0;
+        while left > 0 {
+            let n = left.min(FLUSH_PIECE);
+            let (c, p) = self.process(&zeros[..n], &mut output[produced..]);
+            produced += p;
+            left -= c;
+            if c == 0 {
+                break;
+            }
+        }
+        produced
     }
 }
 
@@ -312,10 +460,50 @@ impl<D: Detector> Receiver for Assembly<D> {
 
     fn measurements(&self) -> Measurements {
         let mut m = Measurements::default();
+        if let Some(meter) = &self.meter {
+            fill_from_meter(meter, &mut m);
+        }
         self.detector.measure(self.front.as_ref(), &mut m);
         for guard in &self.guards {
             guard.report(&mut m);
         }
+        if self.meter.is_some() {
+            centre_spike_is_no_station(&mut m);
+        }
+        if m.cnr_db.is_some() && m.cnr_bandwidth_hz.is_none() {
+            // Every detector's CNR is FrontEnd::cnr_db's: noise in twice the bandwidth.
+            m.cnr_bandwidth_hz = Some(2.0 * self.settings.bandwidth_hz);
+        }
         m
+    }
+
+    fn meter_summary(&self) -> Option<crate::measure::MeterSummary> {
+        self.meter.as_ref().map(CarrierMeter::summary)
+    }
+
+    fn set_meter_window(&mut self, window_s: f64) -> Result<()> {
+        if let Some(meter) = self.meter.as_mut() {
+            let mut fresh = CarrierMeter::new(meter_settings(
+                &self.settings,
+                self.front.as_ref(),
+                window_s,
+            ))?;
+            fresh.record_windows(meter.is_recording());
+            *meter = fresh;
+        }
+        Ok(())
+    }
+
+    fn record_windows(&mut self, on: bool) {
+        if let Some(meter) = self.meter.as_mut() {
+            meter.record_windows(on);
+        }
+    }
+
+    fn take_windows(&mut self) -> Vec<WindowReading> {
+        self.meter
+            .as_mut()
+            .map(CarrierMeter::take_windows)
+            .unwrap_or_default()
     }
 }

@@ -40,7 +40,22 @@ pub trait Detector: Send {
         let _ = step_hz;
     }
 
+    /// The carrier-referenced envelope of the last piece, one value per channel sample, for
+    /// the measurement stage ([`crate::measure::CarrierMeter`]): the magnitude for an
+    /// envelope detector, the in-phase component against the locked carrier for a coherent
+    /// one. `None` for detectors that have no carrier to refer to.
+    fn envelope(&self) -> Option<&[f32]> {
+        None
+    }
+
+    /// Whether the detector's carrier loop is locked now; `None` for detectors without one.
+    fn lock_state(&self) -> Option<bool> {
+        None
+    }
+
     /// Adds what the detector measured to `m`; the front end gives the spectrum and tuning.
+    /// The receiver's measurement stage has filled in its figures (carrier, CNR, depth, lock
+    /// fraction, their warnings) before this is called.
     fn measure(&self, front: &dyn FrontEnd, m: &mut Measurements);
 }
 

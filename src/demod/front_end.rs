@@ -34,6 +34,17 @@ pub trait FrontEnd: Block<Input = Complex32, Output = Complex32> + Send {
     /// Output samples until the filters have settled.
     fn settling_samples(&self) -> usize;
 
+    /// The last piece's samples before the channel filter (the wide view the measurement
+    /// stage reads carrier and noise from), as many as the piece's output; empty for a front
+    /// end without one.
+    fn wide_view(&self) -> &[Complex32] {
+        &[]
+    }
+
+    /// Two-sided noise bandwidth of the channel filter in Hz: the noise power reaching the
+    /// detector is N0 times this.
+    fn channel_noise_bandwidth_hz(&self) -> f64;
+
     /// The strongest spectral line within ±`search_hz` of `around_hz` (channel frequency).
     fn find_carrier_near(&self, around_hz: f64, search_hz: f64) -> Option<CarrierPeak> {
         find_carrier(self.spectrum(), around_hz, search_hz)
@@ -87,6 +98,8 @@ pub struct ChannelFrontEnd {
     decimator: MultiStageDecimator<Complex32>,
     channel: Fir<Complex32>,
     spectrum: PowerSpectrum,
+    noise_bandwidth_hz: f64,
+    last_len: usize,
     unspiked: Vec<Complex32>,
     tuned: Vec<Complex32>,
     decimated: Vec<Complex32>,
@@ -117,10 +130,13 @@ impl ChannelFrontEnd {
         let detection_rate = plan.output_rate;
         let decimator = MultiStageDecimator::new(&plan)?;
         let mid = decimator.max_output_len(PIECE);
+        let taps = channel_taps(config.channel_hz, detection_rate)?;
         Ok(ChannelFrontEnd {
             spike: centre_spike_blocker(&config)?,
             mixer: Mixer::new(-config.offset_hz, config.input_rate)?,
-            channel: Fir::new(&channel_taps(config.channel_hz, detection_rate)?)?,
+            noise_bandwidth_hz: noise_bandwidth(&taps, detection_rate),
+            last_len: 0,
+            channel: Fir::new(&taps)?,
             spectrum: PowerSpectrum::new(spectrum_len(detection_rate), detection_rate)?,
             decimator,
             detection_rate,
@@ -163,6 +179,7 @@ impl PieceWise for ChannelFrontEnd {
         let (_, n) = self.decimator.process(tuned, &mut self.decimated);
         self.spectrum.push(&self.decimated[..n]);
         self.channel.process(&self.decimated[..n], &mut output[..n]);
+        self.last_len = n;
         n
     }
 }
@@ -197,6 +214,7 @@ impl Block for ChannelFrontEnd {
         self.decimator.reset();
         self.channel.reset();
         self.spectrum.reset();
+        self.last_len = 0;
     }
 }
 
@@ -224,6 +242,14 @@ impl FrontEnd for ChannelFrontEnd {
         &self.spectrum
     }
 
+    fn wide_view(&self) -> &[Complex32] {
+        &self.decimated[..self.last_len]
+    }
+
+    fn channel_noise_bandwidth_hz(&self) -> f64 {
+        self.noise_bandwidth_hz
+    }
+
     fn flat_band_hz(&self) -> f64 {
         (NOISE_VIEW * self.config.channel_hz).min(0.45 * self.detection_rate)
     }
@@ -240,6 +266,14 @@ impl FrontEnd for ChannelFrontEnd {
         };
         (2.0 * filters + spike).ceil() as usize
     }
+}
+
+/// Equivalent noise bandwidth of a FIR at `rate`: rate·Σh²/(Σh)² (F. J. Harris, "On the use
+/// of windows for harmonic analysis with the DFT", Proc. IEEE 66, 1978, ENBW).
+fn noise_bandwidth(taps: &[f32], rate: f64) -> f64 {
+    let sum: f64 = taps.iter().map(|&h| f64::from(h)).sum();
+    let energy: f64 = taps.iter().map(|&h| f64::from(h) * f64::from(h)).sum();
+    rate * energy / (sum * sum)
 }
 
 /// Checks input rate and tuning: the offset inside ±rate/2 and the channel inside 90 % of it.

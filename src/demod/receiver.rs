@@ -1,7 +1,7 @@
 //! The interface every receiver offers: IQ in, audio out, measurements on demand, retuning.
 
 use crate::block::Block;
-use crate::measure::ModulationDepth;
+use crate::measure::{MeterSummary, ModulationDepth, WindowReading};
 use crate::{Complex32, Result};
 use serde::Serialize;
 
@@ -10,11 +10,22 @@ use serde::Serialize;
 pub struct Measurements {
     /// Measured carrier frequency relative to the recording centre, in Hz.
     pub carrier_offset_hz: Option<f64>,
-    /// Lock detector verdict; `None` for modes without a loop.
+    /// Whether the loop is locked at the end (false when there is no carrier); `None` for modes
+    /// without a loop. `lock_fraction` says for how much of the carrier's time.
     pub locked: Option<bool>,
-    /// Carrier-to-noise ratio in dB (carrier over noise in twice the message bandwidth).
+    /// Fraction of the carrier-present time the loop was locked; `None` without a loop or a
+    /// carrier.
+    pub lock_fraction: Option<f64>,
+    /// Carrier-to-noise ratio in dB over the carrier-present time, noise in
+    /// `cnr_bandwidth_hz`.
     pub cnr_db: Option<f64>,
-    /// Peak modulation depth from the detected envelope.
+    /// The bandwidth CNR is quoted in: twice the message bandwidth, in Hz.
+    pub cnr_bandwidth_hz: Option<f64>,
+    /// Mean carrier level over the carrier-present time, in dBFS (0 dBFS: amplitude 1).
+    pub carrier_dbfs: Option<f64>,
+    /// Seconds with a carrier present at the tuning (modes with a carrier).
+    pub carrier_present_s: Option<f64>,
+    /// Peak modulation depth over the carrier-present windows, noise-corrected.
     pub modulation_depth: Option<ModulationDepth>,
     /// IQ samples the noise blanker set to zero; `None` without a noise blanker.
     pub blanked_samples: Option<u64>,
@@ -37,4 +48,13 @@ pub trait Receiver: Block<Input = Complex32, Output = f32> + Send {
     fn set_offset(&mut self, offset_hz: f64) -> Result<()>;
     /// Measurements so far (cheap enough to call at the end of a run, not per sample).
     fn measurements(&self) -> Measurements;
+    /// The measurement stage's figures so far (`None` for modes without a carrier).
+    fn meter_summary(&self) -> Option<MeterSummary>;
+    /// Rebuilds the measurement stage with windows of `window_s` seconds (call before the
+    /// first sample); an error names `window_s` when it is too short or not finite.
+    fn set_meter_window(&mut self, window_s: f64) -> Result<()>;
+    /// Keeps every measurement window's reading (for modes with a carrier) until taken.
+    fn record_windows(&mut self, on: bool);
+    /// The recorded windows so far, leaving none behind (empty without recording or a carrier).
+    fn take_windows(&mut self) -> Vec<WindowReading>;
 }

@@ -21,16 +21,12 @@ use super::front_end::FrontEnd;
 use super::receiver::Measurements;
 use super::sideband_selector::SidebandSelector;
 use crate::block::Block;
-use crate::measure::ModulationMeter;
 use crate::sync::{CarrierAcquisition, CarrierKind, CarrierPll};
 use crate::{Complex32, Result};
 
 /// The carrier is searched for within this far of the tuned frequency, at most (half the
 /// bandwidth when that is smaller; common practice, no source).
 pub const CARRIER_SEARCH_HZ: f64 = 1000.0;
-/// Loop time constants 1/B_L allowed for lock after acquisition before the modulation meter
-/// starts (common practice, no source).
-const LOCK_ALLOWANCE_TIME_CONSTANTS: f64 = 10.0;
 /// Default loop bandwidth: wide enough to follow drift and lock in tens of milliseconds,
 /// narrow enough for a clean reference at low CNR (common practice, no source).
 pub const DEFAULT_LOOP_BANDWIDTH_HZ: f64 = 30.0;
@@ -49,9 +45,10 @@ pub struct SamDetector {
     context: DetectorContext,
     carrier: CarrierAcquisition<CarrierPll>,
     selector: Option<SidebandSelector>,
-    meter: ModulationMeter,
-    /// Detected samples still to skip before metering: filter settling, acquisition, lock.
-    settling: usize,
+    /// The in-phase component of the last piece against the carrier, for the measurement
+    /// stage.
+    in_phase: Vec<f32>,
+    in_phase_len: usize,
     derotated: Vec<Complex32>,
     shifted: Vec<Complex32>,
 }
@@ -63,16 +60,14 @@ impl ModeDetector for SamDetector {
         let pll = CarrierPll::new(settings.loop_config(rate)?)?;
         let search = search_hz(settings.bandwidth_hz);
         let carrier = CarrierAcquisition::new(pll, CarrierKind::Line, search, rate)?;
-        let lock_allowance = LOCK_ALLOWANCE_TIME_CONSTANTS * rate
-            / carrier.carrier_loop().config().loop_bandwidth_hz;
         let mid = context.max_piece;
         Ok(SamDetector {
             selector: settings
                 .sideband
                 .map(|side| SidebandSelector::new(side, settings.bandwidth_hz, rate, mid))
                 .transpose()?,
-            meter: ModulationMeter::new(rate),
-            settling: context.settling_samples + carrier.window() + lock_allowance.ceil() as usize,
+            in_phase: vec![0.0; mid],
+            in_phase_len: 0,
             derotated: vec![Complex32::default(); mid],
             shifted: vec![Complex32::default(); mid],
             carrier,
@@ -106,9 +101,9 @@ impl Detector for SamDetector {
         for (d, y) in detected.iter_mut().zip(&self.derotated[..n]) {
             *d = y.re;
         }
-        let skip = self.settling.min(n);
-        self.settling -= skip;
-        self.meter.push(&detected[skip..]);
+        let keep = n.min(self.in_phase.len());
+        self.in_phase[..keep].copy_from_slice(&detected[..keep]);
+        self.in_phase_len = keep;
         if let Some(selector) = self.selector.as_mut() {
             let shifted = &mut self.shifted[..n];
             selector.process(&self.derotated[..n], shifted);
@@ -133,22 +128,26 @@ impl Detector for SamDetector {
         self.reset();
     }
 
+    fn envelope(&self) -> Option<&[f32]> {
+        Some(&self.in_phase[..self.in_phase_len])
+    }
+
+    fn lock_state(&self) -> Option<bool> {
+        Some(self.carrier_loop().is_locked())
+    }
+
+    /// The carrier frequency from the loop; carrier level, CNR, depth, lock fraction and
+    /// their warnings come from the measurement stage, which has filled `m` already.
     fn measure(&self, front: &dyn FrontEnd, m: &mut Measurements) {
         let pll = self.carrier_loop();
-        let locked = pll.is_locked();
-        let search = search_hz(self.settings.bandwidth_hz);
         m.carrier_offset_hz = Some(front.offset_hz() + pll.frequency_hz());
-        m.locked = Some(locked);
-        if let Some(peak) = front.find_carrier_near(0.0, search) {
-            m.cnr_db = front.cnr_db(&peak, self.settings.bandwidth_hz);
-        }
-        if locked {
-            m.modulation_depth = self.meter.depth();
-        } else {
-            m.warnings.push(format!(
-                "carrier loop did not lock (lock statistic {:.1}, needs 50): no carrier within ±{search} Hz of the tuned frequency, or too weak; the audio is not usable",
-                pll.lock_metric(),
-            ));
+        if m.carrier_present_s == Some(0.0) {
+            // Whatever the lock statistic says, there was nothing to lock to.
+            m.locked = Some(false);
+            m.warnings
+                .push("carrier loop did not lock: there is no carrier to lock to".to_string());
+        } else if m.locked.is_none() {
+            m.locked = Some(pll.is_locked());
         }
     }
 }

@@ -49,8 +49,14 @@ impl AgcSettings {
     pub const OFF: AgcSettings = AgcSettings::Fixed { gain_db: 0.0 };
 }
 
+/// The largest output magnitude an automatic gain control lets out (full scale).
+pub const FULL_SCALE: f32 = 1.0;
+
 /// A peak-tracking AGC on real samples: y = g·x with g = target / level, where the level
 /// detector rises with the attack time constant, holds for the hang time and then decays.
+/// A sample that would leave above [`FULL_SCALE`] raises the level to its own magnitude at once
+/// (instant attack on overload), so the output never overshoots full scale, from the first
+/// sample on.
 #[derive(Debug, Clone)]
 pub struct Agc {
     settings: AgcSettings,
@@ -143,7 +149,8 @@ impl Agc {
             return x * self.fixed_gain;
         }
         let magnitude = x.abs();
-        if magnitude > self.level {
+        if magnitude >= self.level {
+            // At or above the level: attack, and the hang starts again.
             self.level += self.attack * (magnitude - self.level);
             self.hang_left = self.hang_samples;
         } else if self.hang_left > 0 {
@@ -151,7 +158,16 @@ impl Agc {
         } else {
             self.level += self.decay * (magnitude - self.level);
         }
+        // Overload: a peak the attack has not caught up with (the first samples, where the
+        // level starts at its floor, or a sudden step up) that would leave above full scale
+        // sets the level to itself at once, so it leaves at the target. Jumping to the target
+        // rather than to full scale keeps the gain steady afterwards: a gain falling from full
+        // scale to the target would turn into a DC step the audio stage's DC blocker swings
+        // past full scale (measured: 1.34 on usb).
         self.level = self.level.max(self.min_level);
+        if magnitude * self.target > FULL_SCALE * self.level {
+            self.level = magnitude;
+        }
         x * self.target / self.level
     }
 
@@ -228,8 +244,8 @@ mod tests {
         }
     }
 
-    /// Attack: after a 20 dB step up, the level detector covers 1 − 1/e of the step in one
-    /// attack time constant (the one-pole definition), so the output overshoots briefly only.
+    /// Attack: after a 5 dB step up (small enough not to reach full scale), the level detector
+    /// covers 1 − 1/e of the step in one attack time constant (the one-pole definition).
     #[test]
     fn attack_time_constant() {
         let AgcSettings::Automatic { attack_s, .. } = AgcSettings::SLOW else {
@@ -239,8 +255,8 @@ mod tests {
         process_to_vec(&mut agc, &vec![0.05f32; 8000]);
         let before = agc.level;
         let steps = (attack_s * FS).round() as usize;
-        process_to_vec(&mut agc, &vec![0.5f32; steps]);
-        let fraction = (agc.level - before) / (0.5 - before);
+        process_to_vec(&mut agc, &vec![0.09f32; steps]);
+        let fraction = (agc.level - before) / (0.09 - before);
         assert!(
             (fraction - (1.0 - (-1.0f32).exp())).abs() < 0.01,
             "{fraction}"
@@ -261,6 +277,20 @@ mod tests {
             "gain {} vs held {held}",
             agc.gain()
         );
+    }
+
+    /// A loud start and a 40 dB step up never leave above full scale.
+    #[test]
+    fn no_overshoot_from_the_first_sample() {
+        for settings in [AgcSettings::SPEECH, AgcSettings::SLOW] {
+            let mut agc = Agc::new(settings, FS).unwrap();
+            let mut x = tone(0.8, 4000);
+            x.extend(tone(0.008, 8000));
+            x.extend(tone(0.8, 4000));
+            let out = process_to_vec(&mut agc, &x);
+            assert!(peak(&out) <= FULL_SCALE, "{}", peak(&out));
+            assert!(peak(&out[..100]) > 0.5 * FULL_SCALE); // and not silenced either
+        }
     }
 
     #[test]

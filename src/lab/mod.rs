@@ -18,6 +18,8 @@ pub mod csv;
 pub mod detector;
 pub mod diode_receiver;
 #[cfg(feature = "lab")]
+pub mod measure_plot;
+#[cfg(feature = "lab")]
 pub mod plot;
 pub mod rc_study;
 pub mod signal;
@@ -29,6 +31,8 @@ pub mod trial;
 pub use csv::{to_csv, write_csv, CSV_HEADER};
 pub use detector::{parse_detectors, Detector};
 pub use diode_receiver::DiodeReceiver;
+#[cfg(feature = "lab")]
+pub use measure_plot::write_measure_png;
 #[cfg(feature = "lab")]
 pub use plot::write_png;
 pub use rc_study::{measure_rc, RcMeasurement};

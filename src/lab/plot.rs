@@ -13,7 +13,7 @@ use std::sync::OnceLock;
 static FONT: &[u8] = include_bytes!("../../assets/fonts/DejaVuSans.ttf");
 
 /// Registers the font once for the whole process.
-fn register_font() -> Result<()> {
+pub(crate) fn register_font() -> Result<()> {
     static REGISTERED: OnceLock<bool> = OnceLock::new();
     let ok = *REGISTERED.get_or_init(|| {
         plotters::style::register_font("sans-serif", FontStyle::Normal, FONT).is_ok()

@@ -9,6 +9,31 @@ pub const SQUARE_LAW_SPAN_DB: (f64, f64) = (-12.0, -6.0);
 /// How far above the measurement floor a slope's points must read (common practice, no source).
 const FLOOR_MARGIN_DB: f64 = 10.0;
 
+/// What the points show when no crossing of `loss` dB was found: every point beyond it, every
+/// point within it, or a crossing only at the top of the range.
+fn loss_statement(curve: &super::sweep::Curve, loss: f64) -> String {
+    let losses: Vec<f64> = curve.points.iter().map(|p| p.loss_db()).collect();
+    let (least, most) = losses
+        .iter()
+        .fold((f64::MAX, f64::MIN), |(a, b), &l| (a.min(l), b.max(l)));
+    if losses.is_empty() {
+        "  no points".to_string()
+    } else if least >= loss {
+        format!(
+            "  at least {loss} dB below theory at every point of the swept range ({least:.1} to {most:.1} dB below)"
+        )
+    } else if most < loss {
+        format!(
+            "  never {loss} dB below theory in the swept range (at most {:.1} dB below)",
+            most.max(0.0)
+        )
+    } else {
+        format!(
+            "  {loss} dB below theory at the top of the swept range already, not below it throughout ({least:.1} to {most:.1} dB below)"
+        )
+    }
+}
+
 /// One line per finding: where each detector falls 1 dB and 3 dB below its theory, and its
 /// slopes below and above threshold, where the sweep covers them.
 pub fn summary_lines(result: &SweepResult) -> Vec<String> {
@@ -23,7 +48,7 @@ pub fn summary_lines(result: &SweepResult) -> Vec<String> {
                     t.cnr_db
                         .map_or(String::new(), |c| format!(" (CNR {c:.2} dB)"))
                 ),
-                None => format!("  never {loss} dB below theory in the swept range"),
+                None => loss_statement(curve, loss),
             });
         }
         let (low, high) = SQUARE_LAW_SPAN_DB;

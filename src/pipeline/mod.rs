@@ -3,10 +3,12 @@
 pub mod demo;
 pub mod info;
 pub mod job;
+pub mod measure_job;
 pub mod report;
 pub mod runtime;
 pub mod synth_job;
 
 pub use job::{run_demod, AudioTarget, DemodRequest, Tuning};
+pub use measure_job::{run_measure, MeasureOutcome, MeasureRequest};
 pub use report::Report;
 pub use runtime::{run_stream, RunTotals, RuntimeConfig};

@@ -30,11 +30,22 @@ pub struct Report {
     pub audio_channels: usize,
     /// Measured carrier frequency relative to the recording centre, in Hz.
     pub carrier_offset_hz: Option<f64>,
-    /// Lock detector verdict; `null` where the mode has no loop.
+    /// Whether the loop is locked at the end (false without a carrier); `null` where the
+    /// mode has no loop. `lock_fraction` says for how much of the carrier's time.
     pub locked: Option<bool>,
-    /// Carrier-to-noise ratio estimate in dB (carrier over noise in 2 × bandwidth).
+    /// Fraction of the carrier-present time the loop was locked; `null` without a loop or
+    /// without a carrier.
+    pub lock_fraction: Option<f64>,
+    /// Carrier-to-noise ratio in dB over the carrier-present time, noise in
+    /// `cnr_bandwidth_hz` (the definition `synth` uses: C/(N0·2W)).
     pub cnr_db: Option<f64>,
-    /// Peak modulation depth as fractions.
+    /// The bandwidth the CNR's noise is measured in (2 × `bandwidth_hz`), Hz.
+    pub cnr_bandwidth_hz: Option<f64>,
+    /// Mean carrier level over the carrier-present time, dBFS (0 dBFS: amplitude 1).
+    pub carrier_dbfs: Option<f64>,
+    /// Seconds with a carrier present at the tuning; `null` for modes without a carrier.
+    pub carrier_present_s: Option<f64>,
+    /// Peak modulation depth as fractions, over carrier-present time only, noise-corrected.
     pub modulation_depth: Option<ModulationDepth>,
     /// Warnings for the user.
     pub warnings: Vec<String>,

@@ -33,6 +33,8 @@ pub struct EmissionSummary {
     pub mean_power: f64,
     /// CNR in dB against the scene noise (None without carrier or noise).
     pub cnr_db: Option<f64>,
+    /// The bandwidth the CNR's noise is counted in, 2W (W the message bandwidth), Hz.
+    pub cnr_bandwidth_hz: f64,
     /// Channel SNR in dB against the scene noise (None without noise).
     pub snr_db: Option<f64>,
     /// The emission's channel in words (empty without one), e.g.
@@ -169,6 +171,7 @@ fn summarise(scene: &Scene, generator: &SceneGenerator) -> Vec<EmissionSummary> 
                 mean_power: e.mean_power(),
                 cnr_db: with_noise(e.carrier_power())
                     .map(|c| crate::channel::snr::cnr_db(c, n0, w)),
+                cnr_bandwidth_hz: 2.0 * w,
                 snr_db: with_noise(e.mean_power()).map(|s| crate::channel::snr::snr_db(s, n0, w)),
                 channel: spec
                     .channel
