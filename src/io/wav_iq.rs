@@ -50,7 +50,13 @@ impl WavIqSource {
         let container = (data_bytes / values) as u16;
         let (codec, datatype) = codec_for(path, spec, container)?;
         let (sample_rate, notes) = resolve_rate(f64::from(spec.sample_rate), rate, path)?;
-        let frames = FrameReader::new(Box::new(file), path, codec, 1, 0, Some(data_bytes));
+        let mut frames = FrameReader::new(Box::new(file), path, codec, 1, 0, Some(data_bytes));
+        if frames.is_empty()? {
+            return Err(Error::file(
+                path,
+                format!("no samples: the WAV header announces {data_bytes} data bytes but the file ends before the first"),
+            ));
+        }
         let info = SourceInfo {
             path: path.to_path_buf(),
             datatype: datatype.to_string(),

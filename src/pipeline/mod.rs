@@ -7,6 +7,6 @@ pub mod report;
 pub mod runtime;
 pub mod synth_job;
 
-pub use job::{run_demod, AudioTarget, DemodRequest, Tuning};
+pub use job::{run_demod, run_demod_until, AudioTarget, DemodRequest, Tuning, INTERRUPTED_WARNING};
 pub use report::Report;
 pub use runtime::{run_stream, RunTotals, RuntimeConfig};
