@@ -243,7 +243,7 @@ fn main() -> ExitCode {
     match outcome {
         Ok(code) => ExitCode::from(code),
         Err(message) => {
-            eprintln!("amrx: {}", amrx::error::cap_echo(message));
+            eprintln!("amrx: {}", amrx::error::cap_echo(message, 1000));
             ExitCode::FAILURE
         }
     }

@@ -267,9 +267,16 @@ fn truncated_and_empty_wav_inputs_are_reported_with_numbers() {
     assert!(out.status.success(), "{}", stderr_of(&out));
     let err = stderr_of(&out);
     assert!(
-        err.contains("ended after 40000 of 192000 bytes (10000 of 48000 samples)"),
+        err.contains(
+            "announces 192000 data bytes (48000 samples) but the file holds 40000 (10000 samples)"
+        ),
         "{err}"
     );
+    assert_eq!(err.matches("warning").count(), 1, "said once: {err}");
+    let info = amrx(&["info", &p]);
+    let text = String::from_utf8_lossy(&info.stdout);
+    assert!(text.contains("10000"), "info counts what is there: {text}");
+    assert!(text.contains("truncated"), "{text}");
     // The header only: an error, like an empty raw file.
     file.set_len(44).unwrap();
     let out = amrx(&["demod", &p, "--mode", "am", "--out", &wav]);
@@ -459,4 +466,34 @@ fn absurd_values_get_short_errors_naming_the_file() {
         assert!(err.len() < 600, "{name}: {} characters", err.len());
         assert!(!Path::new(&format!("{base}.sigmf-data")).exists(), "{name}");
     }
+}
+
+#[test]
+fn a_file_shrinking_while_read_is_reported_with_numbers() {
+    use amrx::io::{IqSource, RawSource};
+    let dir = scratch_dir("faults-shrink");
+    let path = dir.join("shrinks.cf32");
+    std::fs::write(&path, vec![0u8; 8 * 1_000_000]).unwrap();
+    let mut source = RawSource::open(&path, SampleFormat::Cf32Le, 48_000.0).unwrap();
+    let mut buf = vec![amrx::Complex32::default(); 1000];
+    let mut total = source.read(&mut buf).unwrap();
+    std::fs::OpenOptions::new()
+        .write(true)
+        .open(&path)
+        .unwrap()
+        .set_len(8 * 500_000)
+        .unwrap();
+    loop {
+        let n = source.read(&mut buf).unwrap();
+        if n == 0 {
+            break;
+        }
+        total += n;
+    }
+    assert_eq!(total, 500_000);
+    let warnings = source.warnings().join("; ");
+    assert!(
+        warnings.contains("ended after 4000000 of 8000000 bytes (500000 of 1000000 samples)"),
+        "{warnings}"
+    );
 }

@@ -64,10 +64,8 @@ fn every_receiver_gives_finite_audio_for_any_finite_input() {
         -30i32..=36,
     );
     for spec in MODES {
-        let mut receiver = build_receiver(spec.mode, &ReceiverConfig::new(RATE, 1000.0)).unwrap();
         runner(24)
             .run(&strategy, |(values, exponent)| {
-                receiver.reset();
                 let input = iq(&values, exponent);
                 let mut boxed =
                     Boxed(build_receiver(spec.mode, &ReceiverConfig::new(RATE, 1000.0)).unwrap());

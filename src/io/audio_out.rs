@@ -237,6 +237,22 @@ impl AudioSink for WavAudioSink {
     }
 }
 
+/// True when the process started with standard output closed. Rust's runtime then opens
+/// `/dev/null` read-write in its place (so writes vanish without error); a shell's
+/// `> /dev/null` opens it write-only. Read from `/proc/self/fdinfo/1` (Linux, proc(5)).
+#[cfg(target_os = "linux")]
+fn stdout_was_closed() -> bool {
+    let is_null = std::fs::read_link("/proc/self/fd/1").is_ok_and(|p| p == Path::new("/dev/null"));
+    let read_write = std::fs::read_to_string("/proc/self/fdinfo/1")
+        .ok()
+        .and_then(|info| {
+            let flags = info.lines().find_map(|l| l.strip_prefix("flags:"))?;
+            u32::from_str_radix(flags.trim(), 8).ok()
+        })
+        .is_some_and(|flags| flags & 0o3 == 0o2);
+    is_null && read_write
+}
+
 fn is_seekable(file: &mut File) -> bool {
     file.stream_position().is_ok()
 }
@@ -258,6 +274,13 @@ impl RawAudioSink {
     /// writes to a closed descriptor, so the audio would vanish with no error. On Unix the
     /// descriptor is duplicated and written as a file, so every failure is reported.
     pub fn try_stdout() -> Result<Self> {
+        #[cfg(target_os = "linux")]
+        if stdout_was_closed() {
+            return Err(Error::file(
+                "-",
+                "standard output is closed; nowhere to write the audio",
+            ));
+        }
         #[cfg(unix)]
         {
             use std::os::fd::AsFd;

@@ -50,10 +50,11 @@ pub fn check_not_input(output: &Path, inputs: &[&Path]) -> Result<()> {
     Ok(())
 }
 
-/// True when `a` and `b` name the same existing file.
+/// True when `a` and `b` name the same file: by identity when both exist, else by their
+/// absolute paths with the folder resolved.
 fn same_file(a: &Path, b: &Path) -> bool {
     let (Ok(ma), Ok(mb)) = (std::fs::metadata(a), std::fs::metadata(b)) else {
-        return false;
+        return resolved(a).is_some() && resolved(a) == resolved(b);
     };
     #[cfg(unix)]
     {
@@ -184,6 +185,19 @@ pub fn put_in_place(temp: &Path, target: &Path) -> Result<()> {
     outcome
 }
 
+/// The path with its folder made canonical (the file itself need not exist).
+fn resolved(path: &Path) -> Option<PathBuf> {
+    if let Ok(full) = std::fs::canonicalize(path) {
+        return Some(full);
+    }
+    let name = path.file_name()?;
+    let parent = match path.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p,
+        _ => Path::new("."),
+    };
+    Some(std::fs::canonicalize(parent).ok()?.join(name))
+}
+
 fn is_regular(path: &Path) -> bool {
     std::fs::metadata(path).is_ok_and(|m| m.is_file())
 }
@@ -222,6 +236,10 @@ mod tests {
         let err = OutputFile::create(&link, &[&input]).unwrap_err();
         assert!(err.to_string().contains("refusing to write over the input"));
         assert_eq!(std::fs::read(&input).unwrap(), b"precious");
+        // Two outputs with the same name that does not exist yet.
+        let new = d.join("new.wav");
+        assert!(check_not_input(&d.join(".").join("new.wav"), &[&new]).is_err());
+        assert!(check_not_input(&d.join("other.wav"), &[&new]).is_ok());
     }
 
     #[test]

@@ -96,9 +96,8 @@ pub fn run_scene_limited(
         return Err(Error::file(
             scene_path,
             format!(
-                "the scene asks for {samples} samples ({:.1} GB), more than the {max_samples} \
-                 allowed by default; shorten duration_s or lower sample_rate, or allow it \
-                 explicitly (amrx synth --allow-large)",
+                "the scene asks for {samples} samples ({:.1} GB), more than {max_samples}; \
+                 shorten duration_s, lower sample_rate or allow it (synth --allow-large)",
                 bytes / 1e9
             ),
         ));
