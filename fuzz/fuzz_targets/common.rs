@@ -1,3 +1,4 @@
+#![allow(dead_code)]
 // Shared by the targets that need files: a scratch folder per process in the RAM disk when
 // there is one.
 use amrx::io::IqSource;

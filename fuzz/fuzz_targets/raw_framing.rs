@@ -29,7 +29,10 @@ fuzz_target!(|data: &[u8]| {
         return;
     };
     let names = ["cu8", "ci8", "ci16_le", "cf32_le", "cf64_be", "ri16_le", "rf32_le"];
-    let format = SampleFormat::parse(names[usize::from(*pick) % names.len()]).unwrap();
+    // Not every name is a datatype amrx reads (real ones are refused by name).
+    let Some(format) = SampleFormat::parse(names[usize::from(*pick) % names.len()]) else {
+        return;
+    };
     let reader = Trickle {
         data: rest.to_vec(),
         at: 0,
@@ -56,7 +59,6 @@ fuzz_target!(|data: &[u8]| {
                 total += n;
             }
             assert_eq!(total, whole);
-            let _ = common::scratch;
         }
     }
 });
