@@ -8,14 +8,37 @@
 //! depend on how the input was chunked. Blocks compose in one thread with [`block::Chain`] or
 //! run as stages of the threaded [`pipeline`] runtime.
 //!
+//! ```
+//! use amrx::block::{process_to_vec, Block};
+//! use amrx::demod::{Mode, Receiver, ReceiverConfig, SamReceiver};
+//! use amrx::synth::AmToneTransmitter;
+//! use amrx::Complex32;
+//!
+//! // An invented AM station 10 kHz above the centre of a 96 kS/s recording, 0.5 s long.
+//! let mut tx = AmToneTransmitter::new(0.5, 0.4, 700.0, 10_000.0, 96_000.0)?;
+//! let mut iq = vec![Complex32::default(); 48_000];
+//! tx.fill(&mut iq);
+//!
+//! // Synchronous AM, every option at the mode's default from the mode table.
+//! let mut rx = SamReceiver::new(Mode::Sam, &ReceiverConfig::new(96_000.0, 10_000.0))?;
+//! let audio = process_to_vec(&mut rx, &iq);
+//! let m = rx.measurements();
+//! assert_eq!(m.locked, Some(true));
+//! assert!(audio.len() > 20_000);
+//! # Ok::<(), amrx::Error>(())
+//! ```
+//!
 //! ## Modules
 //! - [`dsp`]: NCO, mixer, Kaiser FIR design, FIR, polyphase decimation, rational resampling,
 //!   DC blocker.
-//! - [`demod`]: detectors and the per-mode receivers.
+//! - [`block`]: the block contract and its shared test.
+//! - [`demod`]: the receiver assembly, the mode table and every mode's detector.
 //! - [`sync`]: carrier recovery loops.
 //! - [`io`]: SigMF, IQ WAV and raw inputs; WAV and raw audio outputs.
 //! - [`measure`]: spectra, CNR, modulation depth, tone frequency, SINAD.
-//! - [`synth`]: test-signal generation and impairments.
+//! - [`synth`]: test-signal generation (messages, modulators, scenes).
+//! - [`channel`]: the channel simulator (noise, fading, drift, impairments).
+//! - [`lab`]: the noise-performance lab.
 //! - [`pipeline`]: the streaming runtime and the receive job behind the CLI.
 //!
 //! ## Cargo features
@@ -63,6 +86,11 @@ pub mod sync;
 pub mod synth;
 
 pub use error::{Error, Result};
+
+/// The README's code, compiled and run as a doc test.
+#[cfg(doctest)]
+#[doc = include_str!("../README.md")]
+pub struct ReadmeDoctests;
 pub use num_complex;
 pub use num_complex::Complex32;
 pub use sample::Sample;

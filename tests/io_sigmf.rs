@@ -306,7 +306,7 @@ fn explicit_rate_overrides_the_file_and_is_noted() {
     assert_eq!(s.info().sample_rate, 96_000.0);
     assert_eq!(
         s.warnings(),
-        ["--rate 96000 Hz overrides core:sample_rate 48000 Hz"]
+        ["the given rate 96000 Hz overrides core:sample_rate 48000 Hz"]
     );
 }
 

@@ -222,10 +222,10 @@ fn built_by_mode_with_loop_errors_propagated() {
         let rx = build_receiver(mode, &ReceiverConfig::new(FS, DIAL)).unwrap();
         assert_eq!((rx.audio_channels(), rx.bandwidth_hz()), (1, 2700.0));
         for (bandwidth, damping, name) in [
-            (Some(0.0), None, "--loop-bandwidth"),
-            (Some(-5.0), None, "--loop-bandwidth"),
-            (Some(1e6), None, "--loop-bandwidth"),
-            (None, Some(0.0), "--loop-damping"),
+            (Some(0.0), None, "loop_bandwidth_hz"),
+            (Some(-5.0), None, "loop_bandwidth_hz"),
+            (Some(1e6), None, "loop_bandwidth_hz"),
+            (None, Some(0.0), "loop_damping"),
         ] {
             let mut c = ReceiverConfig::new(FS, DIAL);
             c.options.carrier_lock = true;

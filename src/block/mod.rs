@@ -13,7 +13,7 @@ pub const PIECE: usize = 8192;
 
 /// A streaming DSP block.
 ///
-/// The contract, checked for every block by [`testing::check_block`]:
+/// The contract, checked for every block by [`check::check_block`]:
 /// - `process` consumes as much input as fits and returns `(consumed, produced)`; with an
 ///   output of `max_output_len(input.len())` it consumes everything;
 /// - the output never depends on how the input was split into calls;
@@ -75,7 +75,7 @@ pub trait Block {
     }
 }
 
-/// A block that works through its input in pieces of at most [`PieceWise::PIECE_LEN`] inputs,
+/// A block that works through its input in pieces of at most [`PieceWise::piece_len`] inputs,
 /// each run through every internal stage before the next: its [`Block::process`] is
 /// [`PieceWise::process_pieces`].
 pub trait PieceWise {
@@ -84,9 +84,11 @@ pub trait PieceWise {
     /// Output sample type.
     type Out: Copy;
     /// The largest piece.
-    const PIECE_LEN: usize = PIECE;
+    fn piece_len(&self) -> usize {
+        PIECE
+    }
 
-    /// Most outputs the next piece of `n ≤ PIECE_LEN` inputs can give, from the current state.
+    /// Most outputs the next piece of `n ≤ piece_len()` inputs can give, from the current state.
     fn piece_output_len(&self, n: usize) -> usize;
 
     /// Runs one piece through every stage; returns the outputs written.
@@ -97,7 +99,7 @@ pub trait PieceWise {
         let mut consumed = 0;
         let mut produced = 0;
         while consumed < input.len() {
-            let n = Self::PIECE_LEN.min(input.len() - consumed);
+            let n = self.piece_len().min(input.len() - consumed);
             if self.piece_output_len(n) > output.len() - produced {
                 break;
             }

@@ -24,7 +24,7 @@ impl FrequencyOffset {
     pub fn new(offset_hz: f64, drift_hz_per_s: f64, sample_rate: f64) -> Result<Self> {
         if !(sample_rate.is_finite() && sample_rate > 0.0) {
             return Err(Error::parameter(
-                "sample rate",
+                "sample_rate",
                 sample_rate,
                 "must be positive and finite",
             ));

@@ -31,21 +31,21 @@ impl PhaseNoise {
     pub fn new(linewidth_hz: f64, sample_rate: f64, seed: u64) -> Result<Self> {
         if !(sample_rate.is_finite() && sample_rate > 0.0) {
             return Err(Error::parameter(
-                "sample rate",
+                "sample_rate",
                 sample_rate,
                 "must be positive and finite",
             ));
         }
         if !(linewidth_hz.is_finite() && linewidth_hz >= 0.0) {
             return Err(Error::parameter(
-                "phase-noise linewidth",
+                "linewidth_hz",
                 linewidth_hz,
                 "must be finite and ≥ 0",
             ));
         }
         let sigma = (std::f64::consts::TAU * linewidth_hz / sample_rate).sqrt();
         let step = Normal::new(0.0, sigma)
-            .map_err(|e| Error::parameter("phase-noise linewidth", linewidth_hz, e.to_string()))?;
+            .map_err(|e| Error::parameter("linewidth_hz", linewidth_hz, e.to_string()))?;
         Ok(PhaseNoise {
             step,
             rng: StdRng::seed_from_u64(seed),

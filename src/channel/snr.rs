@@ -28,7 +28,7 @@ fn finite_db(name: &'static str, db: f64) -> Result<f64> {
 
 /// N0 giving channel SNR `snr_db` for signal power S and message bandwidth W: S/(W·SNR).
 pub fn n0_from_snr(signal_power: f64, snr_db: f64, bandwidth_hz: f64) -> Result<f64> {
-    let s = checked("signal power", signal_power)?;
+    let s = checked("signal_power", signal_power)?;
     let w = checked("message bandwidth", bandwidth_hz)?;
     Ok(s / (w * finite_db("channel SNR", snr_db)?))
 }

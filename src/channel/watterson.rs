@@ -184,7 +184,7 @@ impl WattersonChannel {
     pub fn new(paths: &[PathSpec], sample_rate: f64, seed: u64) -> Result<Self> {
         if !(sample_rate.is_finite() && sample_rate > 0.0) {
             return Err(Error::parameter(
-                "sample rate",
+                "sample_rate",
                 sample_rate,
                 "must be positive and finite",
             ));

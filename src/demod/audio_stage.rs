@@ -2,7 +2,7 @@
 //! the detection rate to the audio rate.
 
 use super::front_end::FILTER_ATTENUATION_DB;
-use crate::block::Block;
+use crate::block::{pieces_bound, Block, PieceWise};
 use crate::dsp::{DcBlocker, RationalResampler};
 use crate::{Error, Result};
 
@@ -47,24 +47,38 @@ impl AudioStage {
     }
 }
 
+impl PieceWise for AudioStage {
+    type In = f32;
+    type Out = f32;
+
+    fn piece_output_len(&self, n: usize) -> usize {
+        self.resampler.max_output_len(n)
+    }
+
+    fn piece_len(&self) -> usize {
+        self.scratch.len()
+    }
+
+    fn process_piece(&mut self, input: &[f32], output: &mut [f32]) -> usize {
+        let n = input.len();
+        self.dc.process(input, &mut self.scratch[..n]);
+        self.resampler.process(&self.scratch[..n], output).1
+    }
+}
+
 impl Block for AudioStage {
     type Input = f32;
     type Output = f32;
 
-    /// Takes at most `max_piece` inputs per call (the size given at construction).
+    /// Works through the input in pieces of the `max_piece` given at construction.
     fn process(&mut self, input: &[f32], output: &mut [f32]) -> (usize, usize) {
-        let n = input.len().min(self.scratch.len());
-        let (n, _) = self.dc.process(&input[..n], &mut self.scratch[..n]);
-        let (consumed, produced) = self.resampler.process(&self.scratch[..n], output);
-        debug_assert_eq!(
-            consumed, n,
-            "the caller sizes the output with max_output_len"
-        );
-        (consumed, produced)
+        self.process_pieces(input, output)
     }
 
     fn max_output_len(&self, input_len: usize) -> usize {
-        self.resampler.max_output_len(input_len)
+        pieces_bound(input_len, self.scratch.len(), |n| {
+            self.resampler.max_output_len(n)
+        })
     }
 
     fn rate_ratio(&self) -> f64 {

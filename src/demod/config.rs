@@ -3,7 +3,7 @@
 //!
 //! Each concern is validated once, by the part that owns it: tuning by the front end, audio
 //! rate and bandwidth by the audio stage, loop settings by the loop, the options a mode accepts
-//! by the mode table ([`crate::demod::mode`]).
+//! by the mode table ([`crate::demod::MODES`]).
 
 use super::Mode;
 use crate::dsp::AgcSettings;

@@ -245,14 +245,16 @@ pub fn capacitor_voltage(x: &[f32], rc_s: f64, rate: f64) -> Vec<f32> {
 impl PieceWise for DiodeDetector {
     type In = Complex32;
     type Out = f32;
-    const PIECE_LEN: usize = PIECE;
+    fn piece_len(&self) -> usize {
+        PIECE
+    }
 
     /// The interpolator gives exactly L outputs per input.
     fn piece_output_len(&self, n: usize) -> usize {
         self.decimator.output_len(n * self.config.oversample)
     }
 
-    /// Detects one piece of at most [`PIECE`] channel samples whose outputs fit.
+    /// Detects one piece of at most `PIECE` channel samples whose outputs fit.
     fn process_piece(&mut self, input: &[Complex32], output: &mut [f32]) -> usize {
         let (_, up) = self.interpolator.process(input, &mut self.upsampled);
         let n = self.rectify(up);

@@ -1,8 +1,8 @@
 //! Suppressed-carrier double sideband (DSB-SC) by coherent detection against a Costas loop.
 //!
-//! Chain: [`ChannelFrontEnd`] (channel ±W) → [`CarrierAcquisition`] (the squared signal's line
-//! at twice the carrier, halved) driving a [`CostasLoop`] → audio = Re(de-rotated) → [`Agc`]
-//! → [`AudioStage`].
+//! Chain: [`ChannelFrontEnd`](super::ChannelFrontEnd) (channel ±W) → [`CarrierAcquisition`] (the squared signal's line
+//! at twice the carrier, halved) driving a [`CostasLoop`] → audio = Re(de-rotated) → [`Agc`](crate::dsp::Agc)
+//! → [`AudioStage`](super::AudioStage).
 //!
 //! Coherent detection of DSB-SC: with the reference in phase, Re(y) = A·m(t) plus the in-phase
 //! noise component only (Haykin, Communication Systems, ch. 2: figure of merit 1). The Costas

@@ -1,6 +1,6 @@
 //! Envelope detector: the magnitude of the complex baseband signal.
 
-use crate::block::Block;
+use crate::block::SampleBlock;
 use crate::Complex32;
 
 /// Ideal envelope detector, y\[n\] = |x\[n\]| = √(I² + Q²).
@@ -24,31 +24,21 @@ impl EnvelopeDetector {
     }
 }
 
-impl Block for EnvelopeDetector {
-    type Input = Complex32;
-    type Output = f32;
+impl SampleBlock for EnvelopeDetector {
+    type In = Complex32;
+    type Out = f32;
 
-    fn process(&mut self, input: &[Complex32], output: &mut [f32]) -> (usize, usize) {
-        let n = input.len().min(output.len());
-        for (y, x) in output[..n].iter_mut().zip(&input[..n]) {
-            *y = (x.re * x.re + x.im * x.im).sqrt();
-        }
-        (n, n)
+    #[inline]
+    fn next(&mut self, x: Complex32) -> f32 {
+        (x.re * x.re + x.im * x.im).sqrt()
     }
 
-    fn max_output_len(&self, input_len: usize) -> usize {
-        input_len
-    }
-
-    fn rate_ratio(&self) -> f64 {
-        1.0
-    }
-
-    fn delay(&self) -> f64 {
+    /// Memoryless: no delay.
+    fn sample_delay(&self) -> f64 {
         0.0
     }
 
-    fn reset(&mut self) {}
+    fn reset_state(&mut self) {}
 }
 
 #[cfg(test)]
@@ -69,23 +59,27 @@ mod tests {
         );
     }
 
+    /// The contract, with the delay probed on AM: the envelope of 1 + ½cos is the cosine
+    /// itself, undelayed.
     #[test]
-    fn chunk_invariant() {
-        let input: Vec<Complex32> = (0..5000)
-            .map(|n| Complex32::new((n as f32 * 0.37).sin(), (n as f32 * 0.11).cos()))
-            .collect();
-        let whole = process_to_vec(&mut EnvelopeDetector::new(), &input);
-        for sizes in [vec![1usize], vec![7, 1024], vec![333, 1, 4096]] {
-            let pieces =
-                crate::block::process_in_chunks(&mut EnvelopeDetector::new(), &input, &sizes);
-            assert_eq!(pieces, whole, "sizes {sizes:?}");
-        }
-    }
-
-    #[test]
-    fn short_output_consumes_only_what_fits() {
-        let input = [Complex32::new(1.0, 0.0); 5];
-        let mut out = [0.0f32; 3];
-        assert_eq!(EnvelopeDetector::new().process(&input, &mut out), (3, 3));
+    fn meets_the_block_contract() {
+        use crate::block::check::{check_block, BlockCheck, DelayProbe};
+        let am = |f: f64| -> Vec<Complex32> {
+            (0..20_000)
+                .map(|n| {
+                    let envelope = 1.0 + 0.5 * (std::f64::consts::TAU * f * n as f64).cos();
+                    Complex32::from_polar(envelope as f32, 0.3 * n as f32)
+                })
+                .collect()
+        };
+        let input = am(0.01);
+        let make = EnvelopeDetector::new;
+        check_block(&BlockCheck {
+            delay_probe: Some(DelayProbe {
+                signal: &am,
+                tones: [0.01, 0.012],
+            }),
+            ..BlockCheck::new(&make, &input)
+        });
     }
 }

@@ -96,7 +96,7 @@ impl ChannelFrontEnd {
     /// Builds the front end; the tuning offset must lie inside ±rate/2 with the channel.
     ///
     /// ```
-    /// use amrx::demod::front_end::{ChannelFrontEnd, FrontEndConfig};
+    /// use amrx::demod::front_end::{ChannelFrontEnd, FrontEnd, FrontEndConfig};
     /// let fe = ChannelFrontEnd::new(FrontEndConfig {
     ///     input_rate: 2_400_000.0,
     ///     offset_hz: 100_000.0,
@@ -308,7 +308,7 @@ fn spectrum_len(rate: f64) -> usize {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::block::{process_in_chunks, process_to_vec};
+    use crate::block::process_to_vec;
 
     fn config() -> FrontEndConfig {
         FrontEndConfig {
@@ -353,29 +353,41 @@ mod tests {
         assert!(worst < 0.5e-3, "leak {worst} (60 dB below 0.5)");
     }
 
+    /// The contract, with the delay probed on two lines inside the channel.
     #[test]
-    fn chunk_invariant() {
+    fn meets_the_block_contract() {
+        use crate::block::check::{check_block, BlockCheck, DelayProbe};
         let x = tone(-120_000.0, 100_000);
-        let whole = process_to_vec(&mut ChannelFrontEnd::new(config()).unwrap(), &x);
-        for sizes in [vec![1usize, 7, 1024], vec![8192], vec![10_007, 3]] {
-            let pieces =
-                process_in_chunks(&mut ChannelFrontEnd::new(config()).unwrap(), &x, &sizes);
-            assert_eq!(pieces, whole, "sizes {sizes:?}");
-        }
+        let line = |f: f64| tone(-123_456.0 + f * 960_000.0, 192_000);
+        let make = || ChannelFrontEnd::new(config()).unwrap();
+        check_block(&BlockCheck {
+            delay_probe: Some(DelayProbe {
+                signal: &line,
+                tones: [1000.0 / 960_000.0, 1100.0 / 960_000.0],
+            }),
+            ..BlockCheck::new(&make, &x)
+        });
     }
 
+    /// The audio stage's contract: DC removal, low-pass and 51.2 → 48 kHz, with the delay
+    /// probed in the audio band where the DC blocker's own phase is negligible.
     #[test]
-    fn audio_stage_is_chunk_invariant() {
+    fn audio_stage_meets_the_block_contract() {
+        use crate::block::check::{check_block, BlockCheck, DelayProbe};
         use crate::demod::AudioStage;
-        let x: Vec<f32> = (0..20_000).map(|n| (n as f32 * 0.05).sin() + 0.3).collect();
+        let sine = |f: f64| -> Vec<f32> {
+            (0..40_000)
+                .map(|n| (std::f64::consts::TAU * f * n as f64).sin() as f32 + 0.3)
+                .collect()
+        };
+        let x = sine(0.05);
         let make = || AudioStage::new(51_200.0, 48_000.0, 5_000.0, 4096).unwrap();
-        let whole = process_in_chunks(&mut make(), &x, &[4096]);
-        for sizes in [vec![1usize, 7, 1024], vec![4095, 2]] {
-            assert_eq!(
-                process_in_chunks(&mut make(), &x, &sizes),
-                whole,
-                "sizes {sizes:?}"
-            );
-        }
+        check_block(&BlockCheck {
+            delay_probe: Some(DelayProbe {
+                signal: &sine,
+                tones: [2000.0 / 51_200.0, 2100.0 / 51_200.0],
+            }),
+            ..BlockCheck::new(&make, &x)
+        });
     }
 }

@@ -1,7 +1,7 @@
 //! Independent sideband (B8E): both sidebands of one carrier, detected separately, to stereo.
 //!
-//! Chain: [`ChannelFrontEnd`] (channel ±W) → an SSB detector per sideband (same method) → an
-//! [`Agc`] per sideband → an [`AudioStage`] per sideband → interleaved frames [left, right],
+//! Chain: [`ChannelFrontEnd`](super::ChannelFrontEnd) (channel ±W) → an SSB detector per sideband (same method) → an
+//! [`Agc`](crate::dsp::Agc) per sideband → an [`AudioStage`](super::AudioStage) per sideband → interleaved frames [left, right],
 //! left = lower sideband, right = upper sideband.
 
 use super::assembly::Assembly;

@@ -339,12 +339,13 @@ impl ModeSpec {
         let has_loop = self.accepts(ModeOption::Loop)
             || (self.accepts(ModeOption::CarrierLock) && o.carrier_lock);
         if o.loop_settings.is_set() && !has_loop {
+            let (name, value) = match o.loop_settings.bandwidth_hz {
+                Some(hz) => ("loop_bandwidth_hz", hz),
+                None => ("loop_damping", o.loop_settings.damping.unwrap_or_default()),
+            };
             return refuse(
-                "loop_bandwidth_hz",
-                format!(
-                    "{:?}",
-                    o.loop_settings.bandwidth_hz.or(o.loop_settings.damping)
-                ),
+                name,
+                value.to_string(),
                 "modes with a carrier loop (sam, dsb, vsb, and usb/lsb with carrier lock)",
             );
         }

@@ -1,8 +1,8 @@
 //! Synchronous AM: full-carrier AM detected coherently against a phase-locked carrier, both
 //! sidebands or one.
 //!
-//! Chain: [`ChannelFrontEnd`] (channel ±W) → [`CarrierAcquisition`] driving a [`CarrierPll`]
-//! (coarse FFT search, then the loop) → coherent detection → [`Agc`] → [`AudioStage`].
+//! Chain: [`ChannelFrontEnd`](super::ChannelFrontEnd) (channel ±W) → [`CarrierAcquisition`] driving a [`CarrierPll`]
+//! (coarse FFT search, then the loop) → coherent detection → [`Agc`](crate::dsp::Agc) → [`AudioStage`](super::AudioStage).
 //!
 //! Coherent detection: with the carrier de-rotated onto the real axis, y = A_c(1 + μ·m) + j·0
 //! for an undistorted signal, so the audio is Re(y) and the carrier is the DC the audio stage

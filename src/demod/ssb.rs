@@ -1,11 +1,11 @@
 //! Single sideband (J3E suppressed, R3E reduced and H3E full carrier), upper or lower, from IQ
 //! at any rate to audio.
 //!
-//! Chain: [`ChannelFrontEnd`] (tuned to the carrier, i.e. the dial frequency; channel filter
+//! Chain: [`ChannelFrontEnd`](super::ChannelFrontEnd) (tuned to the carrier, i.e. the dial frequency; channel filter
 //! ±W, symmetric: the detector rejects the other side) → optional carrier lock (PLL on a
 //! pilot or full carrier, de-rotating the channel so that a mistuned dial is corrected) → SSB
-//! detector ([`PhasingDetector`] or [`WeaverDetector`]) → [`Agc`] at the detection rate →
-//! [`AudioStage`] (the DC blocker removes a carrier, now a DC term; audio low-pass to W).
+//! detector ([`PhasingDetector`] or [`WeaverDetector`]) → [`Agc`](crate::dsp::Agc) at the detection rate →
+//! [`AudioStage`](super::AudioStage) (the DC blocker removes a carrier, now a DC term; audio low-pass to W).
 //!
 //! Conventions: after the front end the (suppressed) carrier is at 0 Hz, the upper sideband
 //! in (0, W] and the lower in [−W, 0). The audio passband is [100 Hz, W] (the detectors'

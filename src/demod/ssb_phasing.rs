@@ -212,7 +212,7 @@ impl Block for PhasingDetector {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::block::{process_in_chunks, process_to_vec};
+    use crate::block::process_to_vec;
     use rand::{rngs::StdRng, RngExt, SeedableRng};
     use std::f64::consts::TAU;
 
@@ -304,18 +304,28 @@ mod tests {
         }
     }
 
+    /// The contract on noise, with the delay probed on lower-sideband tones: a Hilbert
+    /// transformer is a delay plus 90°, and the probe's phase difference cancels the 90°.
     #[test]
-    fn chunk_invariant() {
+    fn meets_the_block_contract() {
+        use crate::block::check::{check_block, BlockCheck, DelayProbe};
         let mut rng = StdRng::seed_from_u64(21);
         let x: Vec<Complex32> = (0..20_000)
             .map(|_| Complex32::new(rng.random_range(-1.0..1.0), rng.random_range(-1.0..1.0)))
             .collect();
+        let lower = |f: f64| -> Vec<Complex32> {
+            (0..40_000)
+                .map(|n| Complex32::from_polar(0.5, (-TAU * f * n as f64) as f32))
+                .collect()
+        };
         let make = || PhasingDetector::new(Sideband::Lower, 300.0, 8000.0).unwrap();
-        let whole = process_to_vec(&mut make(), &x);
-        let random: Vec<usize> = (0..64).map(|_| rng.random_range(1..3000)).collect();
-        for sizes in [vec![1usize, 7, 1024], random] {
-            assert_eq!(process_in_chunks(&mut make(), &x, &sizes), whole);
-        }
+        check_block(&BlockCheck {
+            delay_probe: Some(DelayProbe {
+                signal: &lower,
+                tones: [1000.0 / 8000.0, 1010.0 / 8000.0],
+            }),
+            ..BlockCheck::new(&make, &x)
+        });
     }
 
     #[test]

@@ -1,9 +1,9 @@
 //! Vestigial sideband (C3F): the upper sideband to W, a vestige of width f_v below the
 //! carrier, and the carrier, by coherent detection through a Nyquist-slope filter.
 //!
-//! Chain: [`ChannelFrontEnd`] (channel ±W) → carrier lock (a PLL de-rotates the signal so the
-//! carrier sits on the positive real axis) → Nyquist-slope detector → [`Agc`] →
-//! [`AudioStage`] (the DC blocker removes the carrier).
+//! Chain: [`ChannelFrontEnd`](super::ChannelFrontEnd) (channel ±W) → carrier lock (a PLL de-rotates the signal so the
+//! carrier sits on the positive real axis) → Nyquist-slope detector → [`Agc`](crate::dsp::Agc) →
+//! [`AudioStage`](super::AudioStage) (the DC blocker removes the carrier).
 //!
 //! The receiver filter is H(f) = ½·(1 + S(f)) with S odd: S(f) = f/f_v for |f| < f_v and
 //! sgn(f) beyond, so H(0) = ½ and H(f) + H(−f) = 1 across the vestige, the Nyquist-slope

@@ -25,7 +25,7 @@ pub struct DcBlocker<T: Sample> {
 pub fn dc_blocker_pole(cutoff_hz: f64, sample_rate: f64) -> Result<f64> {
     if !(sample_rate.is_finite() && sample_rate > 0.0) {
         return Err(Error::parameter(
-            "sample rate",
+            "sample_rate",
             sample_rate,
             "must be positive and finite",
         ));

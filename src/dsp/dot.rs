@@ -31,8 +31,10 @@ impl Taps {
         self.reversed.len()
     }
 
-    /// Σ h[k]·window[N−1−k], i.e. the filter output at the window's last sample.
-    #[inline]
+    /// Σ h[k]·window[N−1−k], i.e. the filter output at the window's last sample. Always
+    /// inlined: the type dispatch then folds away in each caller (measured with callgrind on
+    /// the am chain: out of line it cost 10 % more instructions in the decimator).
+    #[inline(always)]
     pub(crate) fn dot<T: Sample>(&self, window: &[T]) -> T {
         if let Some(x) = same_type_slice::<T, Complex32>(window) {
             return same_type_value(dot_complex(&self.reversed_pairs, x));
@@ -82,7 +84,7 @@ fn lane_sums(h: &[f32], x: &[f32]) -> ([f32; LANES], usize) {
     (acc, whole)
 }
 
-#[inline]
+#[inline(always)]
 fn dot_real(h: &[f32], x: &[f32]) -> f32 {
     let (a, whole) = lane_sums(h, x);
     let tail: f32 = h[whole..].iter().zip(&x[whole..]).map(|(h, x)| h * x).sum();
@@ -91,7 +93,7 @@ fn dot_real(h: &[f32], x: &[f32]) -> f32 {
 
 /// `pairs` holds every tap twice, matching the re/im interleaving of `x`: even lanes then
 /// accumulate real parts and odd lanes imaginary parts.
-#[inline]
+#[inline(always)]
 fn dot_complex(pairs: &[f32], x: &[Complex32]) -> Complex32 {
     // SAFETY: Complex32 is #[repr(C)] { re: f32, im: f32 }, so n values are 2n f32s.
     let flat = unsafe { std::slice::from_raw_parts(x.as_ptr().cast::<f32>(), 2 * x.len()) };

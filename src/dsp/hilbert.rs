@@ -110,7 +110,7 @@ fn validate(spec: &HilbertSpec) -> Result<()> {
     let fs = spec.sample_rate;
     if !(fs.is_finite() && fs > 0.0) {
         return Err(Error::parameter(
-            "sample rate",
+            "sample_rate",
             fs,
             "must be positive and finite",
         ));

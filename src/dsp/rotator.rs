@@ -18,14 +18,14 @@ impl Rotator {
     pub fn new(offset_hz: f64, sample_rate: f64) -> Result<Self> {
         if !(sample_rate.is_finite() && sample_rate > 0.0) {
             return Err(Error::parameter(
-                "sample rate",
+                "sample_rate",
                 sample_rate,
                 "must be positive and finite",
             ));
         }
         if !(offset_hz.is_finite() && offset_hz.abs() <= sample_rate / 2.0) {
             return Err(Error::parameter(
-                "carrier offset",
+                "offset_hz",
                 format!("{offset_hz} Hz"),
                 format!(
                     "must lie within ±{} Hz (half the sample rate)",

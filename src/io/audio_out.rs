@@ -56,10 +56,10 @@ impl WavAudioSink {
         pcm16: bool,
     ) -> Result<Self> {
         if sample_rate == 0 {
-            return Err(Error::parameter("audio sample rate", 0, "must be positive"));
+            return Err(Error::parameter("audio_rate", 0, "must be positive"));
         }
         if channels == 0 {
-            return Err(Error::parameter("audio channels", 0, "must be at least 1"));
+            return Err(Error::parameter("audio_channels", 0, "must be at least 1"));
         }
         let (guard, file) = OutputFile::create(path, inputs)?;
         let mut sink = WavAudioSink {

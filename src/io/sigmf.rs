@@ -301,7 +301,7 @@ impl SigmfWriter {
     ) -> Result<Self> {
         if !(1.0..=SIGMF_FREQUENCY_LIMIT).contains(&sample_rate) {
             return Err(Error::parameter(
-                "sample rate",
+                "sample_rate",
                 sample_rate,
                 "SigMF needs 1 Hz to 1e12 Hz",
             ));

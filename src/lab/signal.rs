@@ -50,7 +50,7 @@ impl ToneSource {
         rate: f64,
     ) -> Result<Self> {
         if !(power.is_finite() && power > 0.0) {
-            return Err(Error::parameter("signal power", power, "must be positive"));
+            return Err(Error::parameter("signal_power", power, "must be positive"));
         }
         match kind {
             TestSignal::FullCarrier => {

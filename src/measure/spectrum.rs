@@ -65,7 +65,7 @@ impl PowerSpectrum {
         }
         if !(sample_rate.is_finite() && sample_rate > 0.0) {
             return Err(Error::parameter(
-                "sample rate",
+                "sample_rate",
                 sample_rate,
                 "must be positive and finite",
             ));

@@ -8,7 +8,7 @@ use crate::io::{
 };
 use crate::{Error, Result};
 use std::path::{Path, PathBuf};
-use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::atomic::{AtomicBool, AtomicU64, Ordering};
 
 /// Where the receiver is tuned.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
@@ -110,29 +110,27 @@ pub fn run_demod_until(
     let mut receiver = build_receiver(request.mode, &config)?;
     let mut sink = open_sink(&request.audio, receiver.as_ref(), &inputs)?;
     let channels = receiver.audio_channels().max(1);
+    let mut aligned = Alignment::new(receiver.as_ref());
+    let input_total = AtomicU64::new(u64::MAX);
     let mut read_so_far = 0u64;
     let mut interrupted = false;
-    // The receiver's delay, in output samples, is dropped from the start so that the audio is
-    // aligned with the IQ and, with the flushed tail, as long as it.
-    let frames_late = (receiver.delay() * receiver.rate_ratio() / channels as f64).round();
-    let mut lead = frames_late as usize * channels;
     let totals = run_stream(
         |buf| {
             if stop.load(Ordering::Relaxed) {
                 interrupted = true;
+                input_total.store(read_so_far, Ordering::Release);
                 return Ok(0);
             }
             let n = source.read(buf)?;
             read_so_far += n as u64;
             progress(read_so_far);
+            if n == 0 {
+                input_total.store(read_so_far, Ordering::Release);
+            }
             Ok(n)
         },
         receiver.as_mut(),
-        |audio| {
-            let skip = lead.min(audio.len());
-            lead -= skip;
-            sink.write(&audio[skip..])
-        },
+        |audio| sink.write(aligned.keep(audio, input_total.load(Ordering::Acquire))),
         RuntimeConfig::default(),
     )?;
     sink.finish()?;
@@ -142,9 +140,7 @@ pub fn run_demod_until(
         receiver.as_ref(),
         offset_hz,
         totals.samples_in,
-        totals
-            .samples_out
-            .saturating_sub((frames_late as usize * channels) as u64),
+        aligned.written * channels as u64,
     );
     if interrupted {
         report.warnings.insert(
@@ -160,6 +156,45 @@ pub fn run_demod_until(
         report.write_checked(path, &inputs)?;
     }
     Ok(report)
+}
+
+/// Aligns the audio with the IQ: drops the receiver's delay from the start and, once the input
+/// has ended, cuts the flushed tail where the input ended, so the audio lasts exactly as long
+/// as the recording (to the nearest audio sample).
+struct Alignment {
+    /// Samples still to drop from the start (a whole number of frames).
+    lead: usize,
+    channels: usize,
+    frames_per_input: f64,
+    /// Frames passed on so far.
+    written: u64,
+}
+
+impl Alignment {
+    fn new(receiver: &dyn Receiver) -> Self {
+        let channels = receiver.audio_channels().max(1);
+        let frames_per_input = receiver.rate_ratio() / channels as f64;
+        let frames_late = (receiver.delay() * frames_per_input).round() as usize;
+        Alignment {
+            lead: frames_late * channels,
+            channels,
+            frames_per_input,
+            written: 0,
+        }
+    }
+
+    /// The part of `audio` to write; `input_total` is `u64::MAX` until the input has ended.
+    fn keep<'a>(&mut self, audio: &'a [f32], input_total: u64) -> &'a [f32] {
+        let skip = self.lead.min(audio.len());
+        self.lead -= skip;
+        let mut frames = (audio.len() - skip) / self.channels;
+        if input_total != u64::MAX {
+            let due = (input_total as f64 * self.frames_per_input).round() as u64;
+            frames = frames.min(due.saturating_sub(self.written) as usize);
+        }
+        self.written += frames as u64;
+        &audio[skip..skip + frames * self.channels]
+    }
 }
 
 /// The carrier's offset from the recording centre for this tuning.

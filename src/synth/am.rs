@@ -44,37 +44,37 @@ impl AmToneTransmitter {
         offset_hz: f64,
         sample_rate: f64,
     ) -> Result<Self> {
-        let fs = finite("sample rate", sample_rate)?;
+        let fs = finite("sample_rate", sample_rate)?;
         if fs <= 0.0 {
-            return Err(Error::parameter("sample rate", fs, "must be positive"));
+            return Err(Error::parameter("sample_rate", fs, "must be positive"));
         }
-        let a_c = finite("carrier amplitude", carrier_amplitude)?;
+        let a_c = finite("carrier_amplitude", carrier_amplitude)?;
         if a_c < 0.0 {
-            return Err(Error::parameter("carrier amplitude", a_c, "must be ≥ 0"));
+            return Err(Error::parameter("carrier_amplitude", a_c, "must be ≥ 0"));
         }
-        let mu = finite("modulation index", mu)?;
+        let mu = finite("mu", mu)?;
         if mu < 0.0 {
-            return Err(Error::parameter("modulation index", mu, "must be ≥ 0"));
+            return Err(Error::parameter("mu", mu, "must be ≥ 0"));
         }
         if a_c * (1.0 + mu) > f64::from(f32::MAX) {
             return Err(Error::parameter(
-                "carrier amplitude",
+                "carrier_amplitude",
                 a_c,
                 "peak amplitude A_c·(1 + μ) exceeds the f32 range",
             ));
         }
-        let tone = finite("tone frequency", tone_hz)?;
+        let tone = finite("tone_hz", tone_hz)?;
         if !(0.0..fs / 2.0).contains(&tone) {
             return Err(Error::parameter(
-                "tone frequency",
+                "tone_hz",
                 tone,
                 format!("must be in [0, {}) Hz (half the sample rate)", fs / 2.0),
             ));
         }
-        let offset = finite("carrier offset", offset_hz)?;
+        let offset = finite("offset_hz", offset_hz)?;
         if offset.abs() > fs / 2.0 {
             return Err(Error::parameter(
-                "carrier offset",
+                "offset_hz",
                 offset,
                 format!("must be within ±{} Hz (half the sample rate)", fs / 2.0),
             ));
@@ -100,8 +100,8 @@ impl AmToneTransmitter {
         offset_hz: f64,
         sample_rate: f64,
     ) -> Result<Self> {
-        let k_a = finite("amplitude sensitivity", k_a)?;
-        let a_m = finite("message amplitude", message_amplitude)?;
+        let k_a = finite("amplitude_sensitivity", k_a)?;
+        let a_m = finite("message_amplitude", message_amplitude)?;
         Self::new(
             carrier_amplitude,
             k_a * a_m,

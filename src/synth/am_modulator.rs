@@ -31,7 +31,7 @@ impl AmModulator {
     pub fn new(carrier_amplitude: f64, mu: f64, offset_hz: f64, sample_rate: f64) -> Result<Self> {
         let mu = modulation_index(mu)?;
         Ok(AmModulator {
-            carrier_amplitude: amplitude("carrier amplitude", carrier_amplitude, 1.0 + mu)?,
+            carrier_amplitude: amplitude("carrier_amplitude", carrier_amplitude, 1.0 + mu)?,
             k_a: mu,
             carrier: Rotator::new(offset_hz, sample_rate)?,
         })

@@ -546,7 +546,7 @@ impl Emission {
         seed: u64,
         base_dir: &Path,
     ) -> Result<Self> {
-        let fs = positive("sample rate", sample_rate)?;
+        let fs = positive("sample_rate", sample_rate)?;
         let edges = spec.edges_hz()?;
         let offset = spec.offset_hz;
         if !(offset.is_finite() && offset + edges.0 >= -fs / 2.0 && offset + edges.1 <= fs / 2.0) {

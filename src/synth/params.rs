@@ -16,11 +16,7 @@ pub(crate) fn amplitude(name: &'static str, value: f64, peak_factor: f64) -> Res
 /// A finite modulation index ≥ 0.
 pub(crate) fn modulation_index(value: f64) -> Result<f64> {
     if !(value.is_finite() && value >= 0.0) {
-        return Err(Error::parameter(
-            "modulation index",
-            value,
-            "must be finite and ≥ 0",
-        ));
+        return Err(Error::parameter("mu", value, "must be finite and ≥ 0"));
     }
     Ok(value)
 }

@@ -39,13 +39,13 @@ impl ToneMessage {
         for &(a, f) in tones {
             if !(f.is_finite() && f > 0.0 && f < sample_rate / 2.0) {
                 return Err(Error::parameter(
-                    "tone frequency",
+                    "tone_hz",
                     format!("{f} Hz"),
                     format!("must lie in (0, {} Hz)", sample_rate / 2.0),
                 ));
             }
             if !a.is_finite() {
-                return Err(Error::parameter("tone amplitude", a, "must be finite"));
+                return Err(Error::parameter("tone_amplitude", a, "must be finite"));
             }
         }
         Ok(ToneMessage {

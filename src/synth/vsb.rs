@@ -53,7 +53,7 @@ impl VsbModulator {
         sample_rate: f64,
     ) -> Result<Self> {
         let mu = modulation_index(mu)?;
-        let a_c = amplitude("carrier amplitude", carrier_amplitude, 2.0 * (1.0 + mu))?;
+        let a_c = amplitude("carrier_amplitude", carrier_amplitude, 2.0 * (1.0 + mu))?;
         let taps = vestige_taps(vestige_hz, bandwidth_hz, sample_rate)?;
         Ok(VsbModulator {
             carrier_amplitude: a_c,
