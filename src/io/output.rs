@@ -109,7 +109,7 @@ impl OutputFile {
                     .write(true)
                     .create_new(true)
                     .open(&temp)
-                    .map_err(|e| Error::io(&temp, e))?;
+                    .map_err(io)?;
                 let guard = OutputFile {
                     target: target.to_path_buf(),
                     temp: Some(temp),
