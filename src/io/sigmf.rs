@@ -241,6 +241,10 @@ fn resolve_rate(
             Ok((rate, Vec::new()))
         }
         // Bounds: the writer's (1 Hz to 1e12 Hz); common practice, no source.
+        (None, Some(rate)) if rate.is_nan() || rate <= 0.0 => Err(Error::file(
+            meta_path,
+            format!("core:sample_rate {rate} is not positive"),
+        )),
         (None, Some(rate)) => Err(Error::file(
             meta_path,
             format!("core:sample_rate {rate:e} Hz is outside 1 Hz to 1e12 Hz"),
