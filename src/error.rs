@@ -54,8 +54,8 @@ impl Error {
     pub fn parameter(name: &'static str, value: impl ToString, problem: impl Into<String>) -> Self {
         Error::InvalidParameter {
             name,
-            value: value.to_string(),
-            problem: problem.into(),
+            value: cap_echo(value.to_string(), ECHO_LIMIT),
+            problem: cap_echo(problem.into(), PROBLEM_LIMIT),
         }
     }
 
@@ -64,7 +64,7 @@ impl Error {
     pub fn file(path: impl Into<PathBuf>, problem: impl Into<String>) -> Self {
         Error::InvalidFile {
             path: path.into(),
-            problem: problem.into(),
+            problem: cap_echo(problem.into(), PROBLEM_LIMIT),
         }
     }
 
@@ -75,5 +75,45 @@ impl Error {
             path: path.into(),
             source,
         }
+    }
+}
+
+/// The most characters of user-supplied text an error repeats (a 10 MB string in a wrong-typed
+/// field must not become a 10 MB error line); common practice, no source.
+pub const ECHO_LIMIT: usize = 200;
+
+/// The most characters of a whole problem description (the library's words plus what it
+/// repeats of the input).
+pub const PROBLEM_LIMIT: usize = 2 * ECHO_LIMIT;
+
+/// `text` cut to `limit` characters, saying how much was left out.
+pub fn cap_echo(text: String, limit: usize) -> String {
+    match text.char_indices().nth(limit) {
+        None => text,
+        Some((cut, _)) => {
+            let omitted = text[cut..].chars().count();
+            format!("{}… ({omitted} more characters)", &text[..cut])
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn long_echoes_are_capped() {
+        let huge = "x".repeat(10_000_000);
+        let e = Error::file("scene.json", format!("invalid type: string \"{huge}\""));
+        let line = e.to_string();
+        assert!(line.len() < 500, "{} characters", line.len());
+        assert!(line.contains("more characters"));
+        let e = Error::parameter("offset_hz", &huge, "bad");
+        assert!(e.to_string().len() < 300);
+        assert_eq!(
+            cap_echo("é".repeat(ECHO_LIMIT), ECHO_LIMIT),
+            "é".repeat(ECHO_LIMIT)
+        );
+        assert!(cap_echo("é".repeat(ECHO_LIMIT + 1), ECHO_LIMIT).ends_with("(1 more characters)"));
     }
 }

@@ -7,9 +7,10 @@ use amrx::io::{InputOptions, SampleFormat};
 use amrx::lab::{self, Axis, SweepSpec};
 use amrx::measure::Limits;
 use amrx::pipeline::demo::{default_demo_dir, run_demo, DemoRow};
-use amrx::pipeline::synth_job::run_scene;
+use amrx::pipeline::synth_job::{run_scene_limited, DEFAULT_MAX_SAMPLES};
 use amrx::pipeline::{
-    info, run_demod, run_measure, AudioTarget, DemodRequest, MeasureRequest, Tuning,
+    check_outputs, info, run_demod_until, run_measure, AudioTarget, DemodRequest, MeasureRequest,
+    Tuning,
 };
 use amrx::Error;
 use clap::{Args, Parser, Subcommand, ValueEnum};
@@ -17,6 +18,8 @@ use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
+use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
+use std::sync::Arc;
 
 /// Receiver for the amplitude-modulation family: IQ recordings in, audio out.
 #[derive(Parser, Debug)]
@@ -49,6 +52,9 @@ enum Command {
         /// Sample datatype, overriding the scene's (complex types only).
         #[arg(long, value_parser = parse_format)]
         datatype: Option<SampleFormat>,
+        /// Allow a scene of more than 2^30 samples (up to 2^40).
+        #[arg(long)]
+        allow_large: bool,
     },
     /// Measure detectors' output SNR against input SNR in noise, with theory overlaid.
     Sweep(SweepArgs),
@@ -267,28 +273,86 @@ fn parse_format(name: &str) -> Result<SampleFormat, String> {
     })
 }
 
+/// Appends one formatted line to a `String` (the commands print their text in one go through
+/// [`emit`], so that a closed or full standard output is one clean error, never a panic).
+macro_rules! outln {
+    ($buf:expr, $($arg:tt)*) => {{
+        use std::fmt::Write as _;
+        let _ = writeln!($buf, $($arg)*);
+    }};
+}
+
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let outcome = match cli.command {
         Command::Demod(args) => demod(args),
-        Command::Measure(args) => measure(&args),
+        Command::Measure(args) => measure(&args).map(|()| 0),
         Command::Info {
             input,
             input_options,
-        } => show_info(&input, &input_options),
+        } => show_info(&input, &input_options).map(|()| 0),
         Command::Synth {
             scene,
             out,
             datatype,
-        } => synth(&scene, &out, datatype),
-        Command::Sweep(args) => sweep(&args),
-        Command::Demo { dir } => demo(dir.unwrap_or_else(default_demo_dir)),
+            allow_large,
+        } => synth(&scene, &out, datatype, allow_large).map(|()| 0),
+        Command::Sweep(args) => sweep(&args).map(|()| 0),
+        Command::Demo { dir } => demo(dir.unwrap_or_else(default_demo_dir)).map(|()| 0),
     };
     match outcome {
-        Ok(()) => ExitCode::SUCCESS,
+        Ok(code) => ExitCode::from(code),
         Err(message) => {
-            eprintln!("amrx: {message}");
+            eprintln!("amrx: {}", amrx::error::cap_echo(message, 1000));
             ExitCode::FAILURE
+        }
+    }
+}
+
+/// Writes `text` to standard output. A closed pipe (the reader went away, as with `| head`)
+/// ends the command quietly; any other failure (a full disk) is one line of error.
+fn emit(text: &str) -> Result<(), String> {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    match out.write_all(text.as_bytes()).and_then(|()| out.flush()) {
+        Ok(()) => Ok(()),
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
+        Err(e) => Err(format!("standard output: {e}")),
+    }
+}
+
+/// Signal numbers and the stop flag `demod` reads: the first SIGINT or SIGTERM asks the run
+/// to stop (drain, finalise the WAV and the report); a second one ends the process at once.
+struct Interruption {
+    stop: Arc<AtomicBool>,
+    signal: Arc<AtomicUsize>,
+}
+
+impl Interruption {
+    fn install() -> Result<Self, String> {
+        use signal_hook::consts::{SIGINT, SIGTERM, SIGXFSZ};
+        use signal_hook::flag;
+        let stop = Arc::new(AtomicBool::new(false));
+        let signal = Arc::new(AtomicUsize::new(0));
+        let failed = |e: std::io::Error| format!("cannot install signal handlers: {e}");
+        for sig in [SIGINT, SIGTERM] {
+            // Registered first, so that it sees the flag before this signal sets it.
+            flag::register_conditional_shutdown(sig, 128 + sig, Arc::clone(&stop))
+                .map_err(failed)?;
+            flag::register(sig, Arc::clone(&stop)).map_err(failed)?;
+            flag::register_usize(sig, Arc::clone(&signal), sig as usize).map_err(failed)?;
+        }
+        // A file-size limit (ulimit -f) makes the write fail with an error the sink reports,
+        // instead of killing the process with a half-written file.
+        flag::register(SIGXFSZ, Arc::new(AtomicBool::new(false))).map_err(failed)?;
+        Ok(Interruption { stop, signal })
+    }
+
+    /// 128 + the signal number (130 for SIGINT, 143 for SIGTERM), or 0 when none came.
+    fn exit_code(&self) -> u8 {
+        match self.signal.load(Ordering::SeqCst) {
+            0 => 0,
+            sig => (128 + sig).min(255) as u8,
         }
     }
 }
@@ -372,7 +436,8 @@ fn with_input(input: &Path, error: Error) -> String {
     }
 }
 
-fn demod(args: DemodArgs) -> Result<(), String> {
+fn demod(args: DemodArgs) -> Result<u8, String> {
+    let interruption = Interruption::install()?;
     let mode = args.mode;
     let tuning = match (args.offset, args.carrier) {
         (Some(offset), _) => Tuning::Offset(offset),
@@ -397,18 +462,26 @@ fn demod(args: DemodArgs) -> Result<(), String> {
         report: args.report.clone(),
     };
     let bar = progress_bar(args.quiet, "samples");
-    let report =
-        run_demod(&request, &|n| bar.set_position(n)).map_err(|e| with_input(&args.input, e));
+    let report = run_demod_until(&request, &|n| bar.set_position(n), &interruption.stop)
+        .map_err(|e| with_input(&args.input, e));
     bar.finish_and_clear();
     let report = report?;
-    // --quiet hides the progress bar only: warnings always reach stderr.
+    let code = interruption.exit_code();
+    // --quiet hides the progress bar only: warnings (an interruption among them) always
+    // reach stderr.
     for warning in &report.warnings {
         eprintln!("amrx: warning: {}: {warning}", args.input.display());
     }
-    Ok(())
+    Ok(code)
 }
 
 fn measure(args: &MeasureArgs) -> Result<(), String> {
+    let outputs: Vec<&Path> = [&args.json, &args.csv, &args.png]
+        .into_iter()
+        .flatten()
+        .map(PathBuf::as_path)
+        .collect();
+    check_outputs(&args.input, &outputs).map_err(|e| with_input(&args.input, e))?;
     let tuning = match (args.offset, args.carrier) {
         (Some(offset), _) => Tuning::Offset(offset),
         (None, Some(carrier)) => Tuning::Carrier(carrier),
@@ -453,10 +526,11 @@ fn measure(args: &MeasureArgs) -> Result<(), String> {
         );
         lab::write_measure_png(timeline, limits, &title, path).map_err(|e| e.to_string())?;
     }
+    let mut text = String::new();
     for line in timeline.verdict_lines(limits) {
-        println!("{line}");
+        outln!(text, "{line}");
     }
-    Ok(())
+    emit(&text)
 }
 
 fn receiver_options(args: &DemodArgs) -> ReceiverOptions {
@@ -508,13 +582,25 @@ fn progress_bar(quiet: bool, unit: &str) -> ProgressBar {
 
 fn show_info(input: &Path, options: &InputArgs) -> Result<(), String> {
     let summary = info::describe(input, &options.options()).map_err(|e| with_input(input, e))?;
-    print!("{summary}");
-    Ok(())
+    emit(&summary.to_string())
 }
 
-fn synth(scene: &Path, out: &Path, datatype: Option<SampleFormat>) -> Result<(), String> {
-    let summary = run_scene(scene, out, datatype).map_err(|e| with_input(scene, e))?;
-    println!(
+fn synth(
+    scene: &Path,
+    out: &Path,
+    datatype: Option<SampleFormat>,
+    allow_large: bool,
+) -> Result<(), String> {
+    let limit = if allow_large {
+        u64::MAX
+    } else {
+        DEFAULT_MAX_SAMPLES
+    };
+    let summary =
+        run_scene_limited(scene, out, datatype, limit).map_err(|e| with_input(scene, e))?;
+    let mut text = String::new();
+    outln!(
+        text,
         "{}: {} samples of {} at {} S/s, noise power {:.3e}",
         summary.meta_path.display(),
         summary.samples,
@@ -523,13 +609,21 @@ fn synth(scene: &Path, out: &Path, datatype: Option<SampleFormat>) -> Result<(),
         summary.noise_power
     );
     // CNR = C/(N0·2W), noise counted in 2W ("in Hz"), the definition demod's report uses.
-    println!(
+    outln!(
+        text,
         "{:<16} {:>13} {:>13} {:>13} {:>8} {:>8} {:>8}",
-        "emission", "carrier Hz", "lower Hz", "upper Hz", "CNR dB", "in Hz", "SNR dB"
+        "emission",
+        "carrier Hz",
+        "lower Hz",
+        "upper Hz",
+        "CNR dB",
+        "in Hz",
+        "SNR dB"
     );
     for e in &summary.emissions {
         let db = |v: Option<f64>| v.map_or("-".to_string(), |x| format!("{x:.1}"));
-        println!(
+        outln!(
+            text,
             "{:<16} {:>13.1} {:>13.1} {:>13.1} {:>8} {:>8.0} {:>8}",
             e.label,
             e.carrier_hz,
@@ -540,6 +634,7 @@ fn synth(scene: &Path, out: &Path, datatype: Option<SampleFormat>) -> Result<(),
             db(e.snr_db)
         );
     }
+    emit(&text)?;
     if summary.clipped > 0 {
         eprintln!(
             "amrx: warning: {}: {} samples clipped at full scale",
@@ -571,20 +666,29 @@ fn sweep(args: &SweepArgs) -> Result<(), String> {
     let result = result.map_err(in_cli_words)?;
     lab::write_csv(&result, &args.csv).map_err(|e| e.to_string())?;
     lab::write_png(&result, &args.png).map_err(|e| e.to_string())?;
-    for line in lab::summary_lines(&result) {
-        println!("{line}");
+    let mut text = String::new();
+    for summary in lab::summary_lines(&result) {
+        outln!(text, "{summary}");
     }
-    println!("wrote {} and {}", args.csv.display(), args.png.display());
-    Ok(())
+    outln!(
+        text,
+        "wrote {} and {}",
+        args.csv.display(),
+        args.png.display()
+    );
+    emit(&text)
 }
 
 fn demo(dir: PathBuf) -> Result<(), String> {
     let (recording, rows) = run_demo(&dir).map_err(|e| e.to_string())?;
-    println!(
+    let mut text = String::new();
+    outln!(
+        text,
         "amrx demo: invented scene written to {}",
         recording.display()
     );
-    println!(
+    outln!(
+        text,
         "{:<8} {:<4} {:>10} {:>11} {:>5} {:>9} {:>7} {:>6} {:>6} {:>6} {:>8} {:>9}  notes",
         "station",
         "mode",
@@ -600,10 +704,10 @@ fn demo(dir: PathBuf) -> Result<(), String> {
         "SINAD dB"
     );
     for row in &rows {
-        println!("{}", demo_line(row));
+        outln!(text, "{}", demo_line(row));
     }
-    println!("audio and JSON reports are in {}", dir.display());
-    Ok(())
+    outln!(text, "audio and JSON reports are in {}", dir.display());
+    emit(&text)
 }
 
 fn demo_line(row: &DemoRow) -> String {

@@ -78,6 +78,7 @@ pub(crate) struct FrameReader {
     bytes: Vec<u8>,
     filled: usize,
     byte_limit: Option<u64>,
+    expected_bytes: Option<u64>,
     at_end: bool,
     non_finite: u64,
     trailing_bytes: usize,
@@ -105,10 +106,18 @@ impl FrameReader {
             bytes: vec![0; (INITIAL_SAMPLES * frame_bytes).clamp(frame_bytes, MAX_BUFFER_BYTES)],
             filled: 0,
             byte_limit,
+            expected_bytes: byte_limit,
             at_end: false,
             non_finite: 0,
             trailing_bytes: 0,
         }
+    }
+
+    /// Declares how many bytes the stream should hold (a raw file's size at opening): reading
+    /// stops there, and a stream that ends earlier is reported as truncated.
+    pub(crate) fn expect_bytes(&mut self, bytes: u64) {
+        self.byte_limit = Some(bytes);
+        self.expected_bytes = Some(bytes);
     }
 
     /// True when the stream has no byte at all (waits for the first byte on a pipe).
@@ -198,6 +207,18 @@ impl FrameReader {
                 plural(self.non_finite, "sample", "samples")
             ));
         }
+        if let (Some(expected), Some(left)) = (self.expected_bytes, self.byte_limit) {
+            if self.at_end && left > 0 {
+                let read = expected - left;
+                let frame = self.frame_bytes as u64;
+                warnings.push(format!(
+                    "the data ended after {read} of {expected} bytes ({} of {} samples): the file \
+                     is shorter than its header or metadata says, or shrank while being read",
+                    read / frame,
+                    expected / frame
+                ));
+            }
+        }
         if self.trailing_bytes > 0 {
             warnings.push(format!(
                 "{} trailing {} ignored (not a whole sample)",
@@ -219,13 +240,14 @@ fn plural(n: u64, one: &'static str, many: &'static str) -> &'static str {
 
 /// Checks a sample rate given on the command line.
 pub(crate) fn check_rate_parameter(rate: f64) -> Result<f64> {
-    if rate.is_finite() && rate > 0.0 {
+    // Bounds: 1 Hz to 1e12 Hz, those of SigMF's writer; common practice, no source.
+    if (1.0..=1e12).contains(&rate) {
         Ok(rate)
     } else {
         Err(Error::parameter(
             "sample_rate",
-            rate,
-            "sample rate must be positive and finite",
+            format!("{rate:e}"),
+            "sample rate must be within 1 Hz to 1e12 Hz",
         ))
     }
 }

@@ -32,6 +32,7 @@ impl RawSource {
         }
         let mut source = Self::from_reader(Box::new(file), path, format, rate)?;
         source.info.total_samples = Some(len / bytes as u64);
+        source.frames.expect_bytes(len);
         Ok(source)
     }
 

@@ -237,10 +237,17 @@ fn resolve_rate(
             };
             Ok((rate, notes))
         }
-        (None, Some(rate)) if rate.is_finite() && rate > 0.0 => Ok((rate, Vec::new())),
-        (None, Some(rate)) => Err(Error::file(
+        (None, Some(rate)) if (1.0..=SIGMF_FREQUENCY_LIMIT).contains(&rate) => {
+            Ok((rate, Vec::new()))
+        }
+        // Bounds: the writer's (1 Hz to 1e12 Hz); common practice, no source.
+        (None, Some(rate)) if rate.is_nan() || rate <= 0.0 => Err(Error::file(
             meta_path,
             format!("core:sample_rate {rate} is not positive"),
+        )),
+        (None, Some(rate)) => Err(Error::file(
+            meta_path,
+            format!("core:sample_rate {rate:e} Hz is outside 1 Hz to 1e12 Hz"),
         )),
         (None, None) => Err(Error::file(
             meta_path,
@@ -271,6 +278,7 @@ pub struct SigmfAnnotation {
 /// Non-finite samples are written as zero and counted ([`SigmfWriter::non_finite_replaced`]).
 pub struct SigmfWriter {
     data: BufWriter<File>,
+    data_guard: super::output::OutputFile,
     data_path: PathBuf,
     meta_path: PathBuf,
     format: SampleFormat,
@@ -315,9 +323,10 @@ impl SigmfWriter {
             .find_map(|s| name.strip_suffix(s))
             .map_or_else(|| base.to_path_buf(), PathBuf::from);
         let data_path = with_suffix(&base, ".sigmf-data");
-        let file = File::create(&data_path).map_err(|e| Error::io(&data_path, e))?;
+        let (data_guard, file) = super::output::OutputFile::create(&data_path, &[])?;
         Ok(SigmfWriter {
             data: BufWriter::with_capacity(super::frames::READER_CAPACITY, file),
+            data_guard,
             meta_path: with_suffix(&base, ".sigmf-meta"),
             data_path,
             format,
@@ -388,12 +397,13 @@ impl SigmfWriter {
             .flush()
             .map_err(|e| Error::io(&self.data_path, e))?;
         let meta = self.meta();
-        let io = |e| Error::io(&self.meta_path, e);
-        let mut out = BufWriter::new(File::create(&self.meta_path).map_err(io)?);
-        serde_json::to_writer_pretty(&mut out, &meta)
-            .map_err(|e| Error::io(&self.meta_path, e.into()))?;
-        out.write_all(b"\n").map_err(io)?;
-        out.flush().map_err(io)
+        let mut text = serde_json::to_vec_pretty(&meta)
+            .map_err(|e| Error::file(&self.meta_path, format!("cannot encode metadata: {e}")))?;
+        text.push(b'\n');
+        // The data first, then the metadata that describes it: a failure before the end
+        // leaves no metadata announcing a recording that is not there.
+        self.data_guard.commit()?;
+        super::output::write_file(&self.meta_path, &[], &text)
     }
 
     fn meta(&self) -> MetaFile {

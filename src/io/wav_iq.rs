@@ -49,14 +49,48 @@ impl WavIqSource {
         }
         let container = (data_bytes / values) as u16;
         let (codec, datatype) = codec_for(path, spec, container)?;
-        let (sample_rate, notes) = resolve_rate(f64::from(spec.sample_rate), rate, path)?;
-        let frames = FrameReader::new(Box::new(file), path, codec, 1, 0, Some(data_bytes));
+        let (sample_rate, mut notes) = resolve_rate(f64::from(spec.sample_rate), rate, path)?;
+        // What the file holds past the header, when it is shorter than the header says.
+        let mut samples = values / 2;
+        let held = file
+            .metadata()
+            .ok()
+            .zip(
+                file.try_clone()
+                    .ok()
+                    .and_then(|mut f| f.stream_position().ok()),
+            )
+            .map(|(m, start)| m.len().saturating_sub(start));
+        let truncated = held.filter(|&h| h < data_bytes);
+        if let Some(held) = truncated {
+            let frame = u64::from(container) * 2;
+            samples = held / frame.max(1);
+            notes.push(format!(
+                "the WAV header announces {data_bytes} data bytes ({} samples) but the file \
+                 holds {held} ({samples} samples): it is truncated",
+                values / 2
+            ));
+        }
+        let mut frames = FrameReader::new(Box::new(file), path, codec, 1, 0, Some(data_bytes));
+        if frames.is_empty()? {
+            return Err(Error::file(
+                path,
+                format!(
+                    "no samples: the WAV header announces {data_bytes} data bytes but the \
+                     file ends before the first"
+                ),
+            ));
+        }
+        if let Some(held) = truncated {
+            // Said once above; the reader warns again only if the file shrinks further.
+            frames.expect_bytes(held);
+        }
         let info = SourceInfo {
             path: path.to_path_buf(),
             datatype: datatype.to_string(),
             sample_rate,
             centre_frequency: None,
-            total_samples: Some(values / 2),
+            total_samples: Some(samples),
             num_channels: 1,
             channel: 0,
         };

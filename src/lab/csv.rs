@@ -44,5 +44,6 @@ pub fn to_csv(result: &SweepResult) -> String {
 pub fn write_csv(result: &SweepResult, path: &Path) -> Result<()> {
     let temp = super::temp_path(path);
     std::fs::write(&temp, to_csv(result)).map_err(|e| Error::io(&temp, e))?;
-    std::fs::rename(&temp, path).map_err(|e| Error::io(path, e))
+    // Renamed over a regular file; copied into a device node, FIFO or symlink target.
+    crate::io::output::put_in_place(&temp, path)
 }

@@ -47,7 +47,8 @@ pub fn write_png(result: &SweepResult, path: &Path) -> Result<()> {
         let _ = std::fs::remove_file(&temp);
         Error::file(path, format!("cannot draw the chart: {e}"))
     })?;
-    std::fs::rename(&temp, path).map_err(|e| Error::io(path, e))
+    // Renamed over a regular file; copied into a device node, FIFO or symlink target.
+    crate::io::output::put_in_place(&temp, path)
 }
 
 type DrawResult = std::result::Result<(), Box<dyn std::error::Error>>;

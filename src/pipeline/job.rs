@@ -3,10 +3,12 @@
 use super::report::Report;
 use super::runtime::{run_stream, RuntimeConfig};
 use crate::demod::{build_receiver, Mode, Receiver, ReceiverConfig, ReceiverOptions};
-use crate::io::{open_input, AudioSink, InputOptions, IqSource, RawAudioSink, WavAudioSink};
+use crate::io::{
+    check_not_input, open_input, AudioSink, InputOptions, IqSource, RawAudioSink, WavAudioSink,
+};
 use crate::{Error, Result};
 use std::path::{Path, PathBuf};
-use std::sync::atomic::{AtomicU64, Ordering};
+use std::sync::atomic::{AtomicBool, AtomicU64, Ordering};
 
 /// Where the receiver is tuned.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
@@ -72,7 +74,33 @@ impl DemodRequest {
 ///
 /// `progress` is called from the reading thread with the number of samples read so far.
 pub fn run_demod(request: &DemodRequest, progress: &(dyn Fn(u64) + Sync)) -> Result<Report> {
+    run_demod_until(request, progress, &AtomicBool::new(false))
+}
+
+/// The report's warning for a run cut short by [`run_demod_until`]'s `stop`.
+pub const INTERRUPTED_WARNING: &str = "the run was interrupted";
+
+/// As [`run_demod`], reading until the end of the input or until `stop` becomes true (a
+/// signal handler sets it). On a stop, reading ends, the samples already read are drained
+/// through the receiver and flushed, the WAV is finalised and the report is written with a
+/// warning starting with [`INTERRUPTED_WARNING`].
+///
+/// No output may be an input: the audio file and the report are checked against the input
+/// (and, for SigMF, both of its files) by file identity before anything is written.
+pub fn run_demod_until(
+    request: &DemodRequest,
+    progress: &(dyn Fn(u64) + Sync),
+    stop: &AtomicBool,
+) -> Result<Report> {
     let mut source = open_input(&request.input, &request.input_options)?;
+    let input_files = input_files(&request.input, &source.info().path);
+    let inputs: Vec<&Path> = input_files.iter().map(PathBuf::as_path).collect();
+    if let Some(report) = &request.report {
+        check_not_input(report, &inputs)?;
+        if let AudioTarget::Wav { path, .. } = &request.audio {
+            check_not_input(report, &[path])?;
+        }
+    }
     let offset_hz = resolve_offset(request.tuning, source.as_ref())?;
     let config = ReceiverConfig {
         input_rate: source.info().sample_rate,
@@ -80,13 +108,19 @@ pub fn run_demod(request: &DemodRequest, progress: &(dyn Fn(u64) + Sync)) -> Res
         options: request.options,
     };
     let mut receiver = build_receiver(request.mode, &config)?;
-    let mut sink = open_sink(&request.audio, receiver.as_ref())?;
+    let mut sink = open_sink(&request.audio, receiver.as_ref(), &inputs)?;
     let channels = receiver.audio_channels().max(1);
     let mut aligned = Alignment::new(receiver.as_ref());
     let input_total = AtomicU64::new(u64::MAX);
     let mut read_so_far = 0u64;
+    let mut interrupted = false;
     let totals = run_stream(
         |buf| {
+            if stop.load(Ordering::Relaxed) {
+                interrupted = true;
+                input_total.store(read_so_far, Ordering::Release);
+                return Ok(0);
+            }
             let n = source.read(buf)?;
             read_so_far += n as u64;
             progress(read_so_far);
@@ -100,7 +134,7 @@ pub fn run_demod(request: &DemodRequest, progress: &(dyn Fn(u64) + Sync)) -> Res
         RuntimeConfig::default(),
     )?;
     sink.finish()?;
-    let report = make_report(
+    let mut report = make_report(
         request,
         source.as_ref(),
         receiver.as_ref(),
@@ -108,8 +142,18 @@ pub fn run_demod(request: &DemodRequest, progress: &(dyn Fn(u64) + Sync)) -> Res
         totals.samples_in,
         aligned.written * channels as u64,
     );
+    if interrupted {
+        report.warnings.insert(
+            0,
+            format!(
+                "{INTERRUPTED_WARNING} after {} input samples: the audio and this report \
+                 cover only the part read",
+                report.samples_in
+            ),
+        );
+    }
     if let Some(path) = &request.report {
-        report.write(path)?;
+        report.write_checked(path, &inputs)?;
     }
     Ok(report)
 }
@@ -168,14 +212,38 @@ pub fn resolve_offset(tuning: Tuning, source: &dyn IqSource) -> Result<f64> {
     }
 }
 
-fn open_sink(target: &AudioTarget, receiver: &dyn Receiver) -> Result<Box<dyn AudioSink>> {
+/// The files a request reads: the path given, the file the source opened, and for SigMF both
+/// the metadata and the data file.
+pub(crate) fn input_files(given: &Path, opened: &Path) -> Vec<PathBuf> {
+    let mut files = vec![given.to_path_buf(), opened.to_path_buf()];
+    for path in [given, opened] {
+        let name = path.to_string_lossy();
+        for (suffix, other) in [
+            (".sigmf-meta", ".sigmf-data"),
+            (".sigmf-data", ".sigmf-meta"),
+        ] {
+            if let Some(base) = name.strip_suffix(suffix) {
+                files.push(PathBuf::from(format!("{base}{other}")));
+            }
+        }
+    }
+    files
+}
+
+fn open_sink(
+    target: &AudioTarget,
+    receiver: &dyn Receiver,
+    inputs: &[&Path],
+) -> Result<Box<dyn AudioSink>> {
     Ok(match target {
         AudioTarget::Wav { path, pcm16 } => {
             let rate = receiver.audio_rate().round() as u32;
             let channels = receiver.audio_channels() as u16;
-            Box::new(WavAudioSink::create(path, rate, channels, *pcm16)?)
+            Box::new(WavAudioSink::create_checked(
+                path, inputs, rate, channels, *pcm16,
+            )?)
         }
-        AudioTarget::Stdout => Box::new(RawAudioSink::stdout()),
+        AudioTarget::Stdout => Box::new(RawAudioSink::try_stdout()?),
     })
 }
 

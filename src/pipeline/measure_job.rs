@@ -7,7 +7,7 @@ use crate::io::{open_input, InputOptions};
 use crate::measure::carrier_meter::DEFAULT_WINDOW_S;
 use crate::measure::{Limits, Timeline};
 use crate::{Complex32, Error, Result};
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 /// Samples read per step.
 const READ_LEN: usize = 1 << 15;
@@ -77,6 +77,17 @@ fn limit(name: &'static str, v: Option<f64>) -> Result<()> {
         )),
         _ => Ok(()),
     }
+}
+
+/// Refuses outputs that would overwrite the input (the path given, or either SigMF file),
+/// before any work starts.
+pub fn check_outputs(input: &Path, outputs: &[&Path]) -> Result<()> {
+    let inputs = super::job::input_files(input, input);
+    let inputs: Vec<&Path> = inputs.iter().map(PathBuf::as_path).collect();
+    for output in outputs {
+        crate::io::check_not_input(output, &inputs)?;
+    }
+    Ok(())
 }
 
 /// Runs the request: an envelope (am) receiver measures every window; `progress` gets the

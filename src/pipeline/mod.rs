@@ -8,7 +8,7 @@ pub mod report;
 pub mod runtime;
 pub mod synth_job;
 
-pub use job::{run_demod, AudioTarget, DemodRequest, Tuning};
-pub use measure_job::{run_measure, MeasureOutcome, MeasureRequest};
+pub use job::{run_demod, run_demod_until, AudioTarget, DemodRequest, Tuning, INTERRUPTED_WARNING};
+pub use measure_job::{check_outputs, run_measure, MeasureOutcome, MeasureRequest};
 pub use report::Report;
 pub use runtime::{run_stream, RunTotals, RuntimeConfig};

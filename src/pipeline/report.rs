@@ -56,8 +56,14 @@ pub struct Report {
 impl Report {
     /// Writes the report as pretty JSON to `path`.
     pub fn write(&self, path: &Path) -> Result<()> {
+        self.write_checked(path, &[])
+    }
+
+    /// Writes the report to `path`, refusing a `path` that is one of `inputs`; through a
+    /// temporary file renamed on success (see [`crate::io::output`]).
+    pub fn write_checked(&self, path: &Path, inputs: &[&Path]) -> Result<()> {
         let text = serde_json::to_string_pretty(self)
             .map_err(|e| Error::file(path, format!("cannot encode report: {e}")))?;
-        std::fs::write(path, text + "\n").map_err(|e| Error::io(path, e))
+        crate::io::output::write_file(path, inputs, (text + "\n").as_bytes())
     }
 }

@@ -73,7 +73,46 @@ pub fn run_scene(
     out_base: &Path,
     datatype: Option<SampleFormat>,
 ) -> Result<SceneSummary> {
+    run_scene_limited(scene_path, out_base, datatype, DEFAULT_MAX_SAMPLES)
+}
+
+/// The most samples [`run_scene`] generates: 2^30 (8 GiB of `cf32_le`, e.g. 7.5 min at
+/// 2.4 MS/s). A larger scene is refused with its size, unless a caller passes a larger limit
+/// to [`run_scene_limited`] (the command line's `--allow-large`). Common practice, no source.
+pub const DEFAULT_MAX_SAMPLES: u64 = 1 << 30;
+
+/// As [`run_scene`], refusing a scene of more than `max_samples` samples.
+pub fn run_scene_limited(
+    scene_path: &Path,
+    out_base: &Path,
+    datatype: Option<SampleFormat>,
+    max_samples: u64,
+) -> Result<SceneSummary> {
     let scene = Scene::load(scene_path)?;
+    let samples = scene.total_samples();
+    if samples > max_samples {
+        let bytes = samples as f64
+            * datatype
+                .or_else(|| scene.format().ok())
+                .map_or(8.0, |f| f.bytes_per_sample() as f64);
+        return Err(Error::file(
+            scene_path,
+            format!(
+                "the scene asks for {samples} samples ({:.1} GB), more than {max_samples}; \
+                 shorten duration_s, lower sample_rate or allow it (synth --allow-large)",
+                bytes / 1e9
+            ),
+        ));
+    }
+    let name = out_base.to_string_lossy();
+    let base = [".sigmf-meta", ".sigmf-data"]
+        .iter()
+        .find_map(|s| name.strip_suffix(s))
+        .unwrap_or(&name)
+        .to_string();
+    for suffix in [".sigmf-data", ".sigmf-meta"] {
+        crate::io::check_not_input(Path::new(&format!("{base}{suffix}")), &[scene_path])?;
+    }
     write_scene(
         &scene,
         scene_path,

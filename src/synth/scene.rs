@@ -215,6 +215,12 @@ impl Scene {
                 self.duration_s
             ));
         }
+        if self.duration_s * self.sample_rate < 0.5 {
+            return Err(format!(
+                "duration_s: {:e} s is less than one sample at sample_rate {} Hz",
+                self.duration_s, self.sample_rate
+            ));
+        }
         self.format()?;
         if let Some(noise) = &self.noise {
             check_noise(noise, &self.emissions)?;
