@@ -59,19 +59,7 @@ pub trait Block {
     /// delayed tail of the real input. `output` needs [`Block::flush_output_len`] room.
     /// Returns the outputs written; the block should be reset before it is used again.
     fn flush(&mut self, output: &mut [Self::Output]) -> usize {
-        let zeros = [Self::Input::default(); FLUSH_PIECE];
-        let mut left = self.flush_len();
-        let mut produced = 0;
-        while left > 0 {
-            let n = left.min(FLUSH_PIECE);
-            let (c, p) = self.process(&zeros[..n], &mut output[produced..]);
-            produced += p;
-            left -= c;
-            if c == 0 {
-                break;
-            }
-        }
-        produced
+        feed_zeros(self, self.flush_len(), output)
     }
 }
 
@@ -109,6 +97,29 @@ pub trait PieceWise {
         }
         (consumed, produced)
     }
+}
+
+/// Feeds `count` zero inputs to `block`, 256 per call, writing into `output`;
+/// returns the outputs written. The body of the default [`Block::flush`], for blocks that
+/// do something of their own at the end of a stream and then flush as usual.
+pub fn feed_zeros<B: Block + ?Sized>(
+    block: &mut B,
+    count: usize,
+    output: &mut [B::Output],
+) -> usize {
+    let zeros = [B::Input::default(); FLUSH_PIECE];
+    let mut left = count;
+    let mut produced = 0;
+    while left > 0 {
+        let n = left.min(FLUSH_PIECE);
+        let (c, p) = block.process(&zeros[..n], &mut output[produced..]);
+        produced += p;
+        left -= c;
+        if c == 0 {
+            break;
+        }
+    }
+    produced
 }
 
 /// Zeros fed per call by [`Block::flush`].

@@ -10,7 +10,7 @@ use super::front_end::{ChannelFrontEnd, FrontEnd, FrontEndConfig};
 use super::iq_guard::IqBalanceGuard;
 use super::receiver::{Measurements, Receiver};
 use super::{Mode, Transmission};
-use crate::block::{pieces_bound, Block, PieceWise, FLUSH_PIECE, PIECE};
+use crate::block::{feed_zeros, pieces_bound, Block, PieceWise, PIECE};
 use crate::dsp::Agc;
 use crate::measure::carrier_meter::DEFAULT_WINDOW_S;
 use crate::measure::{CarrierMeter, MeterSettings, ModulationDepth, WindowReading};
@@ -415,19 +415,8 @@ impl<D: Detector> Block for Assembly<D> {
         if let Some(meter) = self.meter.as_mut() {
             meter.finish();
         }
-        let zeros = [Complex32::default(); FLUSH_PIECE];
-        let mut left = self.flush_len();
-        let mut produced = 0;
-        while left > 0 {
-            let n = left.min(FLUSH_PIECE);
-            let (c, p) = self.process(&zeros[..n], &mut output[produced..]);
-            produced += p;
-            left -= c;
-            if c == 0 {
-                break;
-            }
-        }
-        produced
+        let count = self.flush_len();
+        feed_zeros(self, count, output)
     }
 }
 

@@ -38,6 +38,9 @@ pub struct BlankerSettings {
     pub post_s: f64,
     /// Time constant of the running level, in s.
     pub level_s: f64,
+    /// Magnitude at or below which a sample is never an impulse, however far it stands over
+    /// the running level (0 for none).
+    pub floor: f64,
 }
 
 impl BlankerSettings {
@@ -52,16 +55,20 @@ impl BlankerSettings {
         pre_s: 0.0,
         post_s: 5e-6,
         level_s: 5e-3,
+        floor: 0.0,
     };
 
     /// The overload guard: 60 dB over the level, no guard, 2 ms level (common practice, no
     /// source): nothing a receiver should hear stands 60 dB over the recording's level for one
-    /// sample, and a single sample that does would hold the loops and AGC for seconds.
+    /// sample, and a single sample that does would hold the loops and AGC for seconds. Samples
+    /// within full scale (|x| ≤ 1) are never an overload: a station that comes on after
+    /// digital silence stands far above the level, legitimately.
     pub const OVERLOAD: BlankerSettings = BlankerSettings {
         threshold_db: 60.0,
         pre_s: 0.0,
         post_s: 0.0,
         level_s: 2e-3,
+        floor: 1.0,
     };
 }
 
@@ -87,6 +94,8 @@ pub struct BlankerCount {
 #[derive(Debug, Clone)]
 pub struct ImpulseBlanker {
     threshold_log2: f64,
+    /// `floor` squared: powers at or below it are never impulses.
+    floor_power: f64,
     alpha: f64,
     pre: usize,
     post: u64,
@@ -141,6 +150,7 @@ impl ImpulseBlanker {
         Ok(ImpulseBlanker {
             // |x|² over level² in log2: dB/10·log2(10).
             threshold_log2: t / 10.0 * std::f64::consts::LOG2_10,
+            floor_power: settings.floor.max(0.0).powi(2),
             alpha: 1.0 / level_samples,
             pre,
             post: (settings.post_s * sample_rate).round() as u64,
@@ -213,7 +223,7 @@ impl ImpulseBlanker {
         let over = log - level;
         let step = over.clamp(-self.threshold_log2, self.threshold_log2);
         self.level = Some(level + alpha * step);
-        if over > self.threshold_log2 {
+        if over > self.threshold_log2 && power > self.floor_power {
             let ratio = (over / 2.0).exp2();
             if ratio > self.count.largest_ratio {
                 self.count.largest_ratio = ratio;
