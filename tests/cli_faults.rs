@@ -272,7 +272,11 @@ fn truncated_and_empty_wav_inputs_are_reported_with_numbers() {
         ),
         "{err}"
     );
-    assert_eq!(err.matches("it is truncated").count(), 1, "said once: {err}");
+    assert_eq!(
+        err.matches("it is truncated").count(),
+        1,
+        "said once: {err}"
+    );
     let info = amrx(&["info", &p]);
     let text = String::from_utf8_lossy(&info.stdout);
     assert!(text.contains("10000"), "info counts what is there: {text}");
