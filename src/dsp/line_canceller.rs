@@ -16,7 +16,7 @@ pub const DECORRELATION_S: f64 = 1e-3;
 pub const PREDICTOR_S: f64 = 40e-3;
 /// Normalised LMS step μ̃ (0 < μ̃ < 2; misadjustment ≈ μ̃/2, Haykin, Adaptive Filter Theory,
 /// §6.4). The normaliser is the window's energy plus L times a short mean of x² that includes
-/// the present sample (a regularised NLMS: without it an onset, seen by x[n] but not yet by the
+/// the present sample (a regularised NLMS: without it an onset, seen by x\[n\] but not yet by the
 /// delayed window, gives the weights a step of x/|window| that takes seconds to unlearn), about
 /// twice the window's energy in steady state: the effective step is μ̃/2, ~1 % excess noise,
 /// and a line at the programme's power settles within ~ 8/μ̃ samples. A smaller step leaves
