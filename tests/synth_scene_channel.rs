@@ -468,8 +468,14 @@ fn a_too_narrow_noise_message_is_refused_naming_bandwidth_hz() {
             Err(e) => {
                 let text = e.to_string();
                 eprintln!("{w} Hz: {text}");
-                assert!(text.contains(&format!("invalid bandwidth_hz {w}:")), "{text}");
-                assert!(text.contains("-tap FIR") && text.contains("bandwidth_hz ≥"), "{text}");
+                assert!(
+                    text.contains(&format!("invalid bandwidth_hz {w}:")),
+                    "{text}"
+                );
+                assert!(
+                    text.contains("-tap FIR") && text.contains("bandwidth_hz ≥"),
+                    "{text}"
+                );
             }
             Ok(_) => panic!("{w} Hz accepted"),
         }
