@@ -452,3 +452,32 @@ fn non_finite_values_from_code_are_refused_with_the_file() {
         "{msg}"
     );
 }
+
+#[test]
+fn a_too_narrow_noise_message_is_refused_naming_bandwidth_hz() {
+    // An ISB lower message 1 Hz or 10 Hz wide at the 48 kHz scene's message rate would need
+    // a band-pass of 10⁵–10⁶ taps; the set-up refuses it at once, naming the key.
+    for w in [1, 10] {
+        let scene = parse(&format!(
+            r#"{{"sample_rate":48000,"centre_frequency":5e6,"duration_s":0.05,"seed":1,"emissions":[
+              {{"label":"A","mode":"isb","offset_hz":0,"amplitude":0.1,
+                "message":{{"type":"tone","frequency_hz":1500}},
+                "lower_message":{{"type":"noise","bandwidth_hz":{w},"crest_factor":3}}}}]}}"#
+        ));
+        match SceneGenerator::new(&scene, Path::new(".")) {
+            Err(e) => {
+                let text = e.to_string();
+                eprintln!("{w} Hz: {text}");
+                assert!(
+                    text.contains(&format!("invalid bandwidth_hz {w}:")),
+                    "{text}"
+                );
+                assert!(
+                    text.contains("-tap FIR") && text.contains("bandwidth_hz ≥"),
+                    "{text}"
+                );
+            }
+            Ok(_) => panic!("{w} Hz accepted"),
+        }
+    }
+}

@@ -28,6 +28,11 @@
 //! `{"type":"noise","bandwidth_hz":..,"low_hz":..,"crest_factor":..}`,
 //! `{"type":"wav","path":..,"bandwidth_hz":..,"low_hz":..}`), `lower_message` (isb),
 //! `start_s`, `stop_s`, `channel`.
+//! A noise message's band edges get transitions of min(0.15·`bandwidth_hz`, `low_hz`/2)
+//! (`low_hz` defaults to 0.1·`bandwidth_hz`), and its band-pass may be at most
+//! [`MAX_NOISE_TAPS`](super::noise_message::MAX_NOISE_TAPS) taps long at the emission's
+//! message rate (about 5× its widest edge): a band narrower than about 1/47 of that rate is
+//! refused, the error naming the smallest `bandwidth_hz` (or `low_hz`) accepted.
 //!
 //! # Channel of an emission
 //! ```json
