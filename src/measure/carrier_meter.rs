@@ -25,7 +25,7 @@
 //!   no source), then corrected for noise (see [`noise_corrected_peak`]).
 //!
 //! A window gives depth only when the carrier is present, steady (starts, stops and deep fast
-//! fades are left out), the loop (if any) was locked throughout it and the window before and at least half the window was past the filters' settling. Steady is
+//! fades are left out), the loop (if any) was locked throughout it and the window before and the whole window was past the filters' settling. Steady is
 //! the reference within 2 dB (min/max ≥ 0.8) over the window, our choice, no source: a 20 dB
 //! fade over 2 s passes (1 dB per window), the edge of a start or a stop does not.
 
@@ -442,7 +442,13 @@ impl CarrierMeter {
         reading.carrier_dbfs = (carrier > 0.0).then(|| 10.0 * carrier.log10());
         reading.cnr_db = cnr_ok.filter(|c| c.is_finite()).or(Some(f64::MAX.log10()));
         let steady = self.reference_min >= STEADY_RATIO * self.reference_max;
-        let enough = self.ratios.len() * 2 >= self.window_len;
+        // Every metered sample of the window must have its ratio: the scale below compares the
+        // reference's mean with the spectrum's carrier, and the spectrum spans the whole window.
+        // A window partly inside the filters' settling (the capture's first) whose level moves
+        // would otherwise scale by a different stretch (measured under Rayleigh fading: +0.029
+        // on the positive peak at 50 dB CNR).
+        let enough =
+            self.ratios.len() * 2 >= self.window_len && self.ratios.len() == self.in_window;
         // A loop must have held lock for a whole window first: a loop that has just locked
         // is still settling its phase (measured: the first locked window read 0.525 for 0.5).
         let lock_ok = match self.lock_all {
