@@ -3,8 +3,8 @@
 //! finite IQ of any magnitude and the same audio however the input is split; the AGC stays
 //! finite and bounded on zeros, constants, full-scale square waves and huge values.
 
-use amrx::block::{process_in_chunks, process_to_vec, Block};
-use amrx::demod::{build_receiver, Receiver, ReceiverConfig, MODES};
+use amrx::block::{process_in_chunks, process_to_vec};
+use amrx::demod::{build_receiver, ReceiverConfig, MODES};
 use amrx::dsp::{Agc, AgcSettings};
 use amrx::Complex32;
 use proptest::prelude::*;
@@ -20,28 +20,6 @@ fn runner(cases: u32) -> TestRunner {
         ..Config::default()
     };
     TestRunner::new_with_rng(config, TestRng::from_seed(RngAlgorithm::ChaCha, &[7; 32]))
-}
-
-struct Boxed(Box<dyn Receiver>);
-
-impl Block for Boxed {
-    type Input = Complex32;
-    type Output = f32;
-    fn process(&mut self, i: &[Complex32], o: &mut [f32]) -> (usize, usize) {
-        self.0.process(i, o)
-    }
-    fn max_output_len(&self, n: usize) -> usize {
-        self.0.max_output_len(n)
-    }
-    fn rate_ratio(&self) -> f64 {
-        self.0.rate_ratio()
-    }
-    fn delay(&self) -> f64 {
-        self.0.delay()
-    }
-    fn reset(&mut self) {
-        self.0.reset()
-    }
 }
 
 /// IQ of random values scaled by 10^`exponent`, with runs of zeros and of a constant.
@@ -68,7 +46,7 @@ fn every_receiver_gives_finite_audio_for_any_finite_input() {
             .run(&strategy, |(values, exponent)| {
                 let input = iq(&values, exponent);
                 let mut boxed =
-                    Boxed(build_receiver(spec.mode, &ReceiverConfig::new(RATE, 1000.0)).unwrap());
+                    build_receiver(spec.mode, &ReceiverConfig::new(RATE, 1000.0)).unwrap();
                 let out = process_to_vec(&mut boxed, &input);
                 let bad = out.iter().position(|x| !x.is_finite());
                 prop_assert!(
@@ -90,7 +68,7 @@ fn every_receiver_is_chunk_invariant_under_random_splits() {
         proptest::collection::vec(1usize..2000, 1..12),
     );
     for spec in MODES {
-        let make = || Boxed(build_receiver(spec.mode, &ReceiverConfig::new(RATE, 1000.0)).unwrap());
+        let make = || build_receiver(spec.mode, &ReceiverConfig::new(RATE, 1000.0)).unwrap();
         runner(8)
             .run(&strategy, |(values, sizes)| {
                 let input = iq(&values, 0);

@@ -37,27 +37,6 @@ fn emission(kind: Transmission, f: f64, seconds: f64) -> Vec<Complex32> {
 }
 
 fn check_receiver(name: &str, make: &dyn Fn() -> Box<dyn Receiver>, kind: Transmission) {
-    struct Boxed(Box<dyn Receiver>);
-    impl Block for Boxed {
-        type Input = Complex32;
-        type Output = f32;
-        fn process(&mut self, i: &[Complex32], o: &mut [f32]) -> (usize, usize) {
-            self.0.process(i, o)
-        }
-        fn max_output_len(&self, n: usize) -> usize {
-            self.0.max_output_len(n)
-        }
-        fn rate_ratio(&self) -> f64 {
-            self.0.rate_ratio()
-        }
-        fn delay(&self) -> f64 {
-            self.0.delay()
-        }
-        fn reset(&mut self) {
-            self.0.reset()
-        }
-    }
-    let build = || Boxed(make());
     let channels = make().audio_channels();
     let input = emission(kind, TONES_HZ[0] / RATE, 0.6);
     let signal = |f: f64| emission(kind, f, 1.2);
@@ -68,7 +47,7 @@ fn check_receiver(name: &str, make: &dyn Fn() -> Box<dyn Receiver>, kind: Transm
             signal: &signal,
             tones: TONES_HZ.map(|f| f / RATE),
         }),
-        ..BlockCheck::new(&build, &input)
+        ..BlockCheck::new(make, &input)
     });
 }
 

@@ -58,3 +58,43 @@ pub trait Receiver: Block<Input = Complex32, Output = f32> + Send {
     /// The recorded windows so far, leaving none behind (empty without recording or a carrier).
     fn take_windows(&mut self) -> Vec<WindowReading>;
 }
+
+/// A boxed receiver (what [`build_receiver`](super::build_receiver) returns) is a block too,
+/// so it can be handed to anything generic over [`Block`], forwarding every method (its own
+/// flush included).
+impl Block for Box<dyn Receiver> {
+    type Input = Complex32;
+    type Output = f32;
+
+    fn process(&mut self, input: &[Complex32], output: &mut [f32]) -> (usize, usize) {
+        (**self).process(input, output)
+    }
+
+    fn max_output_len(&self, input_len: usize) -> usize {
+        (**self).max_output_len(input_len)
+    }
+
+    fn rate_ratio(&self) -> f64 {
+        (**self).rate_ratio()
+    }
+
+    fn delay(&self) -> f64 {
+        (**self).delay()
+    }
+
+    fn reset(&mut self) {
+        (**self).reset()
+    }
+
+    fn flush_len(&self) -> usize {
+        (**self).flush_len()
+    }
+
+    fn flush_output_len(&self) -> usize {
+        (**self).flush_output_len()
+    }
+
+    fn flush(&mut self, output: &mut [f32]) -> usize {
+        (**self).flush(output)
+    }
+}
