@@ -9,7 +9,7 @@ seconds=${1:-60}
 shift || true
 targets=("$@")
 if [ ${#targets[@]} -eq 0 ]; then
-    targets=(sigmf_meta sample_decoders wav_iq raw_framing scene)
+    targets=(sigmf_meta sample_decoders wav_iq raw_framing scene cli_options)
 fi
 cargo +nightly fuzz build >/dev/null
 status=0

@@ -191,13 +191,13 @@ fn sigterm_finalises_the_wav_and_the_report_and_exits_143() {
 }
 
 #[test]
-fn a_file_size_limit_is_an_error_and_leaves_no_half_file() {
+fn a_file_size_limit_is_an_error_that_keeps_what_was_written() {
     let dir = scratch_dir("faults-ulimit");
     let input = dir.join("zeros.cf32");
     std::fs::write(&input, vec![0u8; 8 * 240_000]).unwrap();
     let wav = dir.join("big.wav");
     // 100 blocks of 512 bytes (POSIX `ulimit -f` unit) = 51,200 bytes, far below the
-    // 960 kB of audio.
+    // 192 kB of audio (1 s at 48 kHz, f32).
     let out = Command::new("sh")
         .arg("-c")
         .arg(format!(
@@ -209,10 +209,93 @@ fn a_file_size_limit_is_an_error_and_leaves_no_half_file() {
         .output()
         .unwrap();
     no_panic(&out);
-    assert_eq!(out.status.code(), Some(1), "{}", stderr_of(&out));
-    assert!(stderr_of(&out).contains("big.wav"), "{}", stderr_of(&out));
-    assert!(!wav.exists(), "no half-written WAV presented as complete");
-    assert_eq!(std::fs::read_dir(&dir).unwrap().count(), 1, "temp removed");
+    let err = stderr_of(&out);
+    assert_eq!(out.status.code(), Some(1), "{err}");
+    assert!(err.contains("big.wav") && err.contains("kept the"), "{err}");
+    assert_eq!(err.lines().count(), 1, "one line: {err}");
+    // What fitted is kept: whole frames, a header that states exactly them, readable by
+    // hound, and no temporary file left.
+    let len = std::fs::metadata(&wav).unwrap().len();
+    assert!(len <= 51_200 && len > 40_000, "{len} bytes");
+    let (riff, data, offset) = wav_sizes(&wav);
+    assert_eq!(u64::from(riff) + 8, len, "RIFF size matches the file");
+    assert_eq!(u64::from(data) + offset, len, "data size matches the file");
+    let frames = hound::WavReader::open(&wav).unwrap().duration();
+    assert_eq!(u64::from(frames) * 4, u64::from(data));
+    let kept = format!("kept the {frames} frames");
+    assert!(err.contains(&kept), "{err} (expected '{kept}')");
+    assert_eq!(
+        std::fs::read_dir(&dir).unwrap().count(),
+        2,
+        "input and WAV only"
+    );
+}
+
+#[test]
+fn a_wav_left_by_a_killed_run_is_named_by_the_next_run() {
+    let dir = scratch_dir("faults-sigkill");
+    let wav = dir.join("cut.wav");
+    let mut child = Command::new(bin())
+        .args(["demod", "-", "--format", "cf32_le", "--rate", "240000"])
+        .args(["--mode", "am", "--quiet", "--out"])
+        .arg(&wav)
+        .stdin(Stdio::piped())
+        .stderr(Stdio::null())
+        .spawn()
+        .unwrap();
+    let mut stdin = child.stdin.take().unwrap();
+    let feeder = std::thread::spawn(move || {
+        let zeros = vec![0u8; 64 * 1024];
+        while stdin.write_all(&zeros).is_ok() {}
+    });
+    // Wait until audio has reached the temporary file (past its 94-byte header).
+    let started = std::time::Instant::now();
+    let temp = loop {
+        assert!(started.elapsed() < Duration::from_secs(60), "never started");
+        let written = std::fs::read_dir(&dir)
+            .unwrap()
+            .flatten()
+            .find(|e| e.metadata().is_ok_and(|m| m.len() > 300_000));
+        if let Some(entry) = written {
+            break entry.path();
+        }
+        std::thread::sleep(Duration::from_millis(20));
+    };
+    child.kill().unwrap(); // SIGKILL: no chance to clean up
+    child.wait().unwrap();
+    feeder.join().unwrap();
+    assert!(!wav.exists());
+    // The killed run's file opens as a WAV of unknown length (sizes 0xFFFFFFFF).
+    let (riff, data, _) = wav_sizes(&temp);
+    assert_eq!((riff, data), (u32::MAX, u32::MAX));
+
+    let input = dir.join("zeros.cf32");
+    std::fs::write(&input, vec![0u8; 8 * 24_000]).unwrap();
+    let out = amrx(&[
+        "demod",
+        input.to_str().unwrap(),
+        "--format",
+        "cf32_le",
+        "--rate",
+        "240000",
+        "--mode",
+        "am",
+        "--quiet",
+        "--out",
+        wav.to_str().unwrap(),
+    ]);
+    no_panic(&out);
+    assert!(out.status.success(), "{}", stderr_of(&out));
+    let err = stderr_of(&out);
+    let name = temp.file_name().unwrap().to_str().unwrap();
+    assert!(
+        err.contains("warning") && err.contains(name) && err.contains("killed"),
+        "{err}"
+    );
+    assert!(
+        temp.exists(),
+        "the leftover is the user's to keep or delete"
+    );
 }
 
 #[test]

@@ -32,6 +32,7 @@ pub struct WavAudioSink {
     channels: u16,
     data_bytes: u64,
     riff_limit: u64,
+    sample_rate: u32,
     scratch: Vec<u8>,
 }
 
@@ -70,6 +71,7 @@ impl WavAudioSink {
             channels,
             data_bytes: 0,
             riff_limit: u64::from(u32::MAX),
+            sample_rate,
             scratch: Vec::new(),
         };
         let header = sink.header(sample_rate);
@@ -175,6 +177,57 @@ impl WavAudioSink {
     }
 }
 
+impl WavAudioSink {
+    /// The error for a failed write. When the file hit the size limit (`ulimit -f`, a quota
+    /// or the file system's largest file), what reached the disk is kept: cut to whole
+    /// frames, the header's sizes set for them, and the file put in place, so a long
+    /// recording is not lost to its last block; the error says how much was kept.
+    fn stop_after_write_error(&mut self, e: std::io::Error) -> Error {
+        if e.kind() != std::io::ErrorKind::FileTooLarge || self.guard.is_none() {
+            return Error::io(&self.path, e);
+        }
+        match self.keep_what_fits() {
+            Ok(frames) => Error::io(
+                &self.path,
+                std::io::Error::new(
+                    e.kind(),
+                    format!(
+                        "{e}; kept the {frames} frames ({:.2} s) written before the limit, \
+                         with a header that says so",
+                        frames as f64 / f64::from(self.sample_rate)
+                    ),
+                ),
+            ),
+            Err(_) => Error::io(&self.path, e),
+        }
+    }
+
+    /// Drops the unwritten buffer, cuts the file to whole frames, finalises the header and
+    /// commits the output. Returns the frames kept.
+    fn keep_what_fits(&mut self) -> std::io::Result<u64> {
+        // A writer over a second handle replaces the failed one, whose buffer is dropped
+        // unwritten (`into_parts` does not flush).
+        let file = self.out.get_ref().try_clone()?;
+        let failed = std::mem::replace(&mut self.out, BufWriter::new(file));
+        drop(failed.into_parts());
+        let on_disk = self.out.get_ref().metadata()?.len();
+        let frame = u64::from(self.bytes_per_sample() * self.channels);
+        let frames = on_disk.saturating_sub(self.header_len()) / frame;
+        self.data_bytes = frames * frame;
+        self.out
+            .get_ref()
+            .set_len(self.header_len() + self.data_bytes)?;
+        self.finalise_header()?;
+        self.out.get_ref().sync_all()?;
+        if let Some(guard) = self.guard.take() {
+            guard
+                .commit()
+                .map_err(|e| std::io::Error::other(e.to_string()))?;
+        }
+        Ok(frames)
+    }
+}
+
 /// `x · 32768`, rounded and clipped to the 16-bit range; non-finite gives 0.
 pub fn to_pcm16(x: f32) -> i16 {
     let x = if x.is_finite() { x } else { 0.0 };
@@ -205,16 +258,18 @@ impl AudioSink for WavAudioSink {
                 out.copy_from_slice(&finite_or_zero(x).to_le_bytes());
             }
         }
-        self.out
-            .write_all(&self.scratch[..needed])
-            .map_err(|e| Error::io(&self.path, e))?;
+        if let Err(e) = self.out.write_all(&self.scratch[..needed]) {
+            return Err(self.stop_after_write_error(e));
+        }
         self.data_bytes += needed as u64;
         Ok(())
     }
     fn finish(mut self: Box<Self>) -> Result<()> {
         let path = self.path.clone();
         let io = |e| Error::io(&path, e);
-        self.out.flush().map_err(io)?;
+        if let Err(e) = self.out.flush() {
+            return Err(self.stop_after_write_error(e));
+        }
         let direct = self
             .guard
             .as_ref()

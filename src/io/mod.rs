@@ -12,7 +12,7 @@ pub mod wav_iq;
 pub use audio_out::{AudioSink, RawAudioSink, WavAudioSink};
 pub use format::SampleFormat;
 pub use open::{open_input, InputOptions};
-pub use output::{check_not_input, OutputFile};
+pub use output::{check_not_input, leftover_temps, OutputFile};
 pub use raw::RawSource;
 pub use sigmf::{SigmfAnnotation, SigmfSource, SigmfWriter};
 pub use wav_iq::WavIqSource;

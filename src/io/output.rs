@@ -210,6 +210,43 @@ pub fn temp_path(target: &Path) -> PathBuf {
     target.with_file_name(format!(".{name}.amrx-{}.tmp", std::process::id()))
 }
 
+/// Temporary files beside `target` left by runs that were killed before they could commit or
+/// remove them (SIGKILL, a power cut), with their sizes in bytes. Files of runs still going
+/// (their process exists) and of this process are not listed.
+pub fn leftover_temps(target: &Path) -> Vec<(PathBuf, u64)> {
+    let Some(name) = target.file_name().map(|n| n.to_string_lossy().into_owned()) else {
+        return Vec::new();
+    };
+    let folder = match target.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p,
+        _ => Path::new("."),
+    };
+    let Ok(entries) = std::fs::read_dir(folder) else {
+        return Vec::new();
+    };
+    let prefix = format!(".{name}.amrx-");
+    let mut found: Vec<(PathBuf, u64)> = entries
+        .flatten()
+        .filter_map(|entry| {
+            let file_name = entry.file_name().to_string_lossy().into_owned();
+            let pid: u32 = file_name
+                .strip_prefix(&prefix)?
+                .strip_suffix(".tmp")?
+                .parse()
+                .ok()?;
+            let size = entry.metadata().ok().filter(|m| m.is_file())?.len();
+            (pid != std::process::id() && !process_exists(pid)).then(|| (entry.path(), size))
+        })
+        .collect();
+    found.sort();
+    found
+}
+
+/// True when process `pid` exists (Linux: `/proc/PID`, proc(5)); elsewhere assumed gone.
+fn process_exists(pid: u32) -> bool {
+    cfg!(target_os = "linux") && Path::new(&format!("/proc/{pid}")).exists()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -219,6 +256,21 @@ mod tests {
         let _ = std::fs::remove_dir_all(&d);
         std::fs::create_dir_all(&d).unwrap();
         d
+    }
+
+    #[test]
+    fn leftovers_of_dead_runs_are_found_and_live_ones_are_not() {
+        let d = dir("leftover");
+        let target = d.join("x.wav");
+        // PID 4194304 is above Linux's largest pid_max (2^22), so no such process exists.
+        let dead = d.join(".x.wav.amrx-4194304.tmp");
+        std::fs::write(&dead, b"RIFF").unwrap();
+        // PID 1 always exists; and this process's own temporary file is in use.
+        std::fs::write(d.join(".x.wav.amrx-1.tmp"), b"RIFF").unwrap();
+        std::fs::write(temp_path(&target), b"RIFF").unwrap();
+        std::fs::write(d.join(".y.wav.amrx-4194304.tmp"), b"RIFF").unwrap();
+        assert_eq!(leftover_temps(&target), vec![(dead, 4)]);
+        std::fs::remove_dir_all(&d).unwrap();
     }
 
     #[test]

@@ -152,6 +152,9 @@ pub fn run_demod_until(
             ),
         );
     }
+    if let AudioTarget::Wav { path, .. } = &request.audio {
+        report.warnings.extend(leftover_warnings(path));
+    }
     if let Some(path) = &request.report {
         report.write_checked(path, &inputs)?;
     }
@@ -228,6 +231,21 @@ pub(crate) fn input_files(given: &Path, opened: &Path) -> Vec<PathBuf> {
         }
     }
     files
+}
+
+/// A warning for each temporary file beside `wav` that a killed run left behind.
+fn leftover_warnings(wav: &Path) -> Vec<String> {
+    crate::io::leftover_temps(wav)
+        .into_iter()
+        .map(|(temp, bytes)| {
+            format!(
+                "{} ({bytes} bytes) was left by an earlier run that was killed before it \
+                 finished; it is a WAV of unknown length that most readers open: rename it \
+                 to keep that audio, or delete it",
+                temp.display()
+            )
+        })
+        .collect()
 }
 
 fn open_sink(
