@@ -293,13 +293,11 @@ impl ImpulseBlanker {
         };
         let t = self.threshold_log2;
         let alpha = self.alpha;
-        let floor = self.floor_power;
         let mut taken = 0;
         for ((y, &x), &log) in ys.iter_mut().zip(xs).zip(logs) {
             let p = power(x);
             let over = log - level;
-            // Two comparisons rather than `is_finite` (bit tests: 40 % more per sample).
-            if !(p > 0.0 && p < f64::INFINITY) || (over > t && p > floor) {
+            if !(p > 0.0 && p.is_finite()) || (over > t && p > self.floor_power) {
                 break;
             }
             level += alpha * over.clamp(-t, t);
