@@ -90,9 +90,7 @@ impl Mixer {
     /// rotation[k] = e^{j2π·block_phase}·table[k], multiplied in f64 and rounded once.
     fn fill_rotation(&mut self) {
         let (s, c) = (TAU * self.block_phase).sin_cos();
-        for (r, &(tc, ts)) in self.rotation.iter_mut().zip(&self.table) {
-            *r = Complex32::new((c * tc - s * ts) as f32, (c * ts + s * tc) as f32);
-        }
+        start_rotations((c, s), &self.table, &mut self.rotation);
     }
 
     fn next_block(&mut self) {
@@ -100,6 +98,58 @@ impl Mixer {
         self.position = 0;
         self.fill_rotation();
     }
+}
+
+/// rotation[k] = start·table[k] in f64, rounded once to f32; compiled for AVX2 where the
+/// CPU has it (the same operations, so the same values). Callgrind on the am chain: 10
+/// instructions per sample in the portable build, as many as the mixing itself.
+fn start_rotations(start: (f64, f64), table: &[(f64, f64)], rotation: &mut [Complex32]) {
+    #[inline(always)]
+    fn kernel((c, s): (f64, f64), table: &[(f64, f64)], rotation: &mut [Complex32]) {
+        for (r, &(tc, ts)) in rotation.iter_mut().zip(table) {
+            *r = Complex32::new((c * tc - s * ts) as f32, (c * ts + s * tc) as f32);
+        }
+    }
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    unsafe fn kernel_avx2(start: (f64, f64), table: &[(f64, f64)], rotation: &mut [Complex32]) {
+        kernel(start, table, rotation)
+    }
+    #[cfg(target_arch = "x86_64")]
+    if std::arch::is_x86_feature_detected!("avx2") {
+        // SAFETY: the CPU has AVX2 (checked just above).
+        return unsafe { kernel_avx2(start, table, rotation) };
+    }
+    kernel(start, table, rotation)
+}
+
+/// y = x·r sample by sample, zero where the product is not finite; compiled for AVX2 where
+/// the CPU has it (the same operations in wider registers, so the same values: Rust does not
+/// fuse the multiply-adds on its own).
+fn rotate(input: &[Complex32], rotation: &[Complex32], output: &mut [Complex32]) {
+    #[inline(always)]
+    fn kernel(input: &[Complex32], rotation: &[Complex32], output: &mut [Complex32]) {
+        for ((y, x), r) in output.iter_mut().zip(input).zip(rotation) {
+            let v = x * r;
+            // |r| ≈ 1, so v is non-finite only for non-finite x.
+            *y = if v.re.is_finite() && v.im.is_finite() {
+                v
+            } else {
+                Complex32::new(0.0, 0.0)
+            };
+        }
+    }
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    unsafe fn kernel_avx2(input: &[Complex32], rotation: &[Complex32], output: &mut [Complex32]) {
+        kernel(input, rotation, output)
+    }
+    #[cfg(target_arch = "x86_64")]
+    if std::arch::is_x86_feature_detected!("avx2") {
+        // SAFETY: the CPU has AVX2 (checked just above).
+        return unsafe { kernel_avx2(input, rotation, output) };
+    }
+    kernel(input, rotation, output)
 }
 
 impl Block for Mixer {
@@ -115,18 +165,11 @@ impl Block for Mixer {
             }
             let take = (TABLE_LEN - self.position).min(n - done);
             let rotation = &self.rotation[self.position..self.position + take];
-            let pairs = output[done..done + take]
-                .iter_mut()
-                .zip(&input[done..done + take]);
-            for ((y, x), r) in pairs.zip(rotation) {
-                let v = x * r;
-                // |r| ≈ 1, so v is non-finite only for non-finite x.
-                *y = if v.re.is_finite() && v.im.is_finite() {
-                    v
-                } else {
-                    Complex32::new(0.0, 0.0)
-                };
-            }
+            rotate(
+                &input[done..done + take],
+                rotation,
+                &mut output[done..done + take],
+            );
             self.position += take;
             done += take;
         }

@@ -553,14 +553,19 @@ pub fn erfc(x: f64) -> f64 {
 /// Points over half a modulation cycle in the noise model.
 const MODEL_POINTS: usize = 1024;
 
-/// P(μ·cos θ + σ·z > d) for θ uniform on [0, π) and z standard normal.
-fn exceedance(mu: f64, d: f64, sigma: f64) -> f64 {
+/// cos θ at the model's points θ = (i + ½)·π/`MODEL_POINTS`, computed once per reading
+/// rather than once per bisection step (the same values, so the same result).
+fn model_cosines() -> [f64; MODEL_POINTS] {
     let step = std::f64::consts::PI / MODEL_POINTS as f64;
-    let sum: f64 = (0..MODEL_POINTS)
-        .map(|i| {
-            let theta = (i as f64 + 0.5) * step;
-            0.5 * erfc((d - mu * theta.cos()) / (sigma * std::f64::consts::SQRT_2))
-        })
+    std::array::from_fn(|i| ((i as f64 + 0.5) * step).cos())
+}
+
+/// P(μ·cos θ + σ·z > d) for θ uniform on [0, π) and z standard normal; `cosines` from
+/// [`model_cosines`].
+fn exceedance(cosines: &[f64; MODEL_POINTS], mu: f64, d: f64, sigma: f64) -> f64 {
+    let sum: f64 = cosines
+        .iter()
+        .map(|&c| 0.5 * erfc((d - mu * c) / (sigma * std::f64::consts::SQRT_2)))
         .sum();
     sum / MODEL_POINTS as f64
 }
@@ -585,22 +590,53 @@ pub fn noise_corrected_peak(reading: f64, sigma: f64, tail: f64) -> Option<f64> 
     if sigma < 1e-5 {
         return Some(reading.max(0.0) / (std::f64::consts::PI * tail).cos());
     }
-    if exceedance(0.0, reading, sigma) >= tail {
+    let cosines = model_cosines();
+    let exceedance = |mu: f64, d: f64, sigma: f64| exceedance(&cosines, mu, d, sigma);
+    let g_zero = exceedance(0.0, reading, sigma) - tail;
+    if g_zero >= 0.0 {
         return Some(0.0);
     }
     let mut low = 0.0;
     let mut high = reading.max(0.0) / (std::f64::consts::PI * tail).cos() + sigma;
     let mut grow = 0;
-    while exceedance(high, reading, sigma) < tail && grow < 40 {
+    let mut g_high = exceedance(high, reading, sigma) - tail;
+    while g_high < 0.0 && grow < 40 {
         high = 2.0 * high + sigma;
+        g_high = exceedance(high, reading, sigma) - tail;
         grow += 1;
     }
-    for _ in 0..50 {
-        let mid = 0.5 * (low + high);
-        if exceedance(mid, reading, sigma) < tail {
+    // The root of g(μ) = P(μ) − tail inside [low, high] (g rises with μ) by the Illinois
+    // variant of regula falsi (Dowell & Jarratt, BIT 11, 1971; from memory): about 10
+    // evaluations of the 1024-point model instead of bisection's 36 for the same bracket
+    // below 10⁻¹⁰ (callgrind: the meter was a fifth of the whole am command).
+    let mut g_low = g_zero;
+    let mut last_side = 0;
+    for _ in 0..80 {
+        if high - low < 1e-10 || g_high <= g_low {
+            break;
+        }
+        let mut mid = (low * g_high - high * g_low) / (g_high - g_low);
+        if !(mid > low && mid < high) {
+            mid = 0.5 * (low + high);
+        }
+        let g = exceedance(mid, reading, sigma) - tail;
+        if g.abs() < 1e-14 {
+            return Some(mid);
+        }
+        if g < 0.0 {
             low = mid;
+            g_low = g;
+            if last_side < 0 {
+                g_high *= 0.5;
+            }
+            last_side = -1;
         } else {
             high = mid;
+            g_high = g;
+            if last_side > 0 {
+                g_low *= 0.5;
+            }
+            last_side = 1;
         }
     }
     Some(0.5 * (low + high))
@@ -611,6 +647,35 @@ mod tests {
     use super::*;
     use rand::{rngs::StdRng, SeedableRng};
     use rand_distr::{Distribution, Normal};
+
+    /// The root finder against plain bisection (60 halvings of [0, 4]) on the same model.
+    #[test]
+    fn regula_falsi_agrees_with_bisection() {
+        let cosines = model_cosines();
+        for (reading, sigma) in [
+            (0.45, 0.05),
+            (0.9, 0.036),
+            (0.2, 0.07),
+            (1.3, 0.2),
+            (0.05, 0.1),
+        ] {
+            let (mut low, mut high) = (0.0, 4.0);
+            for _ in 0..60 {
+                let mid = 0.5 * (low + high);
+                if exceedance(&cosines, mid, reading, sigma) < PEAK_TAIL {
+                    low = mid;
+                } else {
+                    high = mid;
+                }
+            }
+            let got = noise_corrected_peak(reading, sigma, PEAK_TAIL).unwrap();
+            // Both stop within 1e-10 of the same root; 1e-9 leaves room for the slope.
+            assert!(
+                (got - low).abs() < 1e-9,
+                "{reading} {sigma}: {got} vs {low}"
+            );
+        }
+    }
 
     #[test]
     fn erfc_matches_known_values() {
