@@ -3,7 +3,7 @@
 
 use amrx::demod::{LoopSettings, Mode, Notch, ReceiverOptions, Sideband, SsbMethod, MODES};
 use amrx::dsp::AgcSettings;
-use amrx::io::{InputOptions, SampleFormat};
+use amrx::io::{InputOptions, SampleFormat, StreamOptions};
 use amrx::lab::{self, Axis, SweepSpec};
 use amrx::measure::Limits;
 use amrx::pipeline::demo::{default_demo_dir, run_demo, DemoRow};
@@ -76,6 +76,24 @@ struct InputArgs {
     /// Channel of a multi-channel SigMF recording (0-based).
     #[arg(long, default_value_t = 0)]
     channel: usize,
+    /// Exchange I and Q (for front ends that deliver them swapped: the spectrum is mirrored).
+    #[arg(long)]
+    swap_iq: bool,
+    /// Centre frequency of the recording in Hz, for inputs that do not carry one (raw
+    /// captures); lets --carrier tune by absolute frequency.
+    #[arg(long, allow_negative_numbers = true)]
+    centre: Option<f64>,
+}
+
+/// The part of the input to process.
+#[derive(Args, Debug)]
+struct SpanArgs {
+    /// Seconds of input to skip first.
+    #[arg(long, allow_negative_numbers = true, default_value_t = 0.0)]
+    start: f64,
+    /// Seconds to process (default: to the end).
+    #[arg(long, allow_negative_numbers = true)]
+    duration: Option<f64>,
 }
 
 #[derive(Args, Debug)]
@@ -141,6 +159,8 @@ struct DemodArgs {
     #[arg(long)]
     quiet: bool,
     #[command(flatten)]
+    span: SpanArgs,
+    #[command(flatten)]
     input_options: InputArgs,
 }
 
@@ -180,12 +200,8 @@ struct MeasureArgs {
     /// Draw peaks, limits, carrier level and events as a PNG.
     #[arg(long)]
     png: Option<PathBuf>,
-    /// Seconds of input to skip first.
-    #[arg(long, allow_negative_numbers = true, default_value_t = 0.0)]
-    start: f64,
-    /// Seconds to measure (default: to the end).
-    #[arg(long, allow_negative_numbers = true)]
-    duration: Option<f64>,
+    #[command(flatten)]
+    span: SpanArgs,
     #[command(flatten)]
     input_options: InputArgs,
 }
@@ -363,6 +379,11 @@ impl InputArgs {
             format: self.format,
             rate: self.rate,
             channel: self.channel,
+            stream: StreamOptions {
+                swap_iq: self.swap_iq,
+                centre_hz: self.centre,
+                ..StreamOptions::default()
+            },
         }
     }
 }
@@ -407,6 +428,7 @@ fn flag_for(parameter: &str) -> Option<&'static str> {
         "window_s" => "--window",
         "start_s" => "--start",
         "duration_s" => "--duration",
+        "centre_hz" => "--centre",
         "limit_positive" => "--limit-positive",
         "limit_negative" => "--limit-negative",
         _ => return None,
@@ -454,7 +476,14 @@ fn demod(args: DemodArgs) -> Result<u8, String> {
     };
     let request = DemodRequest {
         input: args.input.clone(),
-        input_options: args.input_options.options(),
+        input_options: InputOptions {
+            stream: StreamOptions {
+                start_s: args.span.start,
+                duration_s: args.span.duration,
+                ..args.input_options.options().stream
+            },
+            ..args.input_options.options()
+        },
         mode,
         tuning,
         options: receiver_options(&args),
@@ -498,8 +527,8 @@ fn measure(args: &MeasureArgs) -> Result<(), String> {
         bandwidth_hz: args.bandwidth,
         window_s: args.window,
         limits,
-        start_s: args.start,
-        duration_s: args.duration,
+        start_s: args.span.start,
+        duration_s: args.span.duration,
     };
     let bar = progress_bar(false, "samples");
     let outcome = run_measure(&request, &|n| bar.set_position(n));

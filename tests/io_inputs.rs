@@ -19,6 +19,7 @@ fn options(format: Option<SampleFormat>, rate: Option<f64>) -> InputOptions {
         format,
         rate,
         channel: 0,
+        ..InputOptions::default()
     }
 }
 
@@ -324,7 +325,11 @@ fn open_input_errors() {
     std::fs::write(&raw, [1u8, 2, 3, 4]).unwrap();
     let err = open_input(&raw, &options(None, Some(1e3))).err().unwrap();
     assert!(matches!(err, Error::InvalidFile { .. }));
-    assert_names(&err, "iq.dat", "unknown input type; give --format");
+    assert_names(
+        &err,
+        "iq.dat",
+        "unknown input type; name the file after its datatype",
+    );
     let err = open_input(&raw, &options(Some(SampleFormat::Cu8), None))
         .err()
         .unwrap();

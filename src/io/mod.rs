@@ -1,5 +1,6 @@
 //! Input and output: IQ sources (SigMF, IQ WAV, raw files and standard input) and audio sinks.
 
+pub mod adapt;
 pub mod audio_out;
 pub mod format;
 mod frames;
@@ -9,6 +10,7 @@ pub mod raw;
 pub mod sigmf;
 pub mod wav_iq;
 
+pub use adapt::{adapt_source, StreamOptions};
 pub use audio_out::{AudioSink, RawAudioSink, WavAudioSink};
 pub use format::SampleFormat;
 pub use open::{open_input, InputOptions};

@@ -1,5 +1,6 @@
 //! Opens any supported input by its name: SigMF, IQ WAV, raw file or standard input.
 
+use super::adapt::{adapt_source, StreamOptions};
 use super::sigmf::sigmf_base;
 use super::{IqSource, RawSource, SampleFormat, SigmfSource, WavIqSource};
 use crate::{Error, Result};
@@ -8,12 +9,15 @@ use std::path::Path;
 /// Options that complete or override what the file says.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct InputOptions {
-    /// Raw format (required for raw files and `-`).
+    /// Raw format (required for raw files and `-`, unless the file name ends in a datatype:
+    /// `.cu8`, `.ci16`, `.cf32_le`, ...; see [`format_from_suffix`]).
     pub format: Option<SampleFormat>,
     /// Sample rate in Hz (required for raw input; supplies a missing `core:sample_rate`).
     pub rate: Option<f64>,
     /// Channel to read from a multi-channel recording (0-based).
     pub channel: usize,
+    /// Swap I and Q, start, duration and centre frequency: applied to every source alike.
+    pub stream: StreamOptions,
 }
 
 /// Opens `path`: `NAME.sigmf-meta` or `NAME.sigmf-data` as SigMF, `*.wav` as 2-channel IQ WAV,
@@ -22,7 +26,33 @@ pub struct InputOptions {
 /// `NAME.sigmf-`, `NAME.` and bare `NAME` also open a SigMF pair when `NAME.sigmf-meta`
 /// exists and `path` itself is not a file. For SigMF and WAV, `options.rate` overrides the
 /// file's rate (noted in the warnings) and `options.format`, if given, must match the file.
+/// A raw file named after its datatype (`capture.cu8`) needs no format; `options.format`
+/// overrides the suffix. `options.stream` (swap, start, duration, centre) then applies to
+/// whatever was opened ([`adapt_source`]).
 pub fn open_input(path: &Path, options: &InputOptions) -> Result<Box<dyn IqSource>> {
+    options.stream.validate()?;
+    let source = open_unadapted(path, options)?;
+    adapt_source(source, &options.stream)
+}
+
+/// The raw datatype a file name states by its suffix: a SigMF datatype name (`.cu8`,
+/// `.ci16_le`, `.cf32_be`, ...), or one without its byte order, which then means little-endian
+/// (`.ci16`, `.cf32`, `.cf64`, ...). `None` for any other name.
+///
+/// ```
+/// use amrx::io::{open::format_from_suffix, SampleFormat};
+/// use std::path::Path;
+/// assert_eq!(format_from_suffix(Path::new("night.cu8")), Some(SampleFormat::Cu8));
+/// assert_eq!(format_from_suffix(Path::new("band.CF32")), Some(SampleFormat::Cf32Le));
+/// assert_eq!(format_from_suffix(Path::new("band.ci16_be")), Some(SampleFormat::Ci16Be));
+/// assert_eq!(format_from_suffix(Path::new("band.bin")), None);
+/// ```
+pub fn format_from_suffix(path: &Path) -> Option<SampleFormat> {
+    let ext = path.extension()?.to_str()?.to_ascii_lowercase();
+    SampleFormat::parse(&ext).or_else(|| SampleFormat::parse(&format!("{ext}_le")))
+}
+
+fn open_unadapted(path: &Path, options: &InputOptions) -> Result<Box<dyn IqSource>> {
     if path != Path::new("-") {
         if sigmf_base(path).is_some() || has_extension(path, "sigmf") {
             let source = SigmfSource::open(path, options.rate, options.channel)?;
@@ -42,10 +72,10 @@ pub fn open_input(path: &Path, options: &InputOptions) -> Result<Box<dyn IqSourc
             "raw input holds one channel (use 0)",
         ));
     }
-    let Some(format) = options.format else {
+    let Some(format) = options.format.or_else(|| format_from_suffix(path)) else {
         return Err(Error::file(
             path,
-            "unknown input type; give --format cu8|ci8|ci16_le|cf32_le and --rate",
+            "unknown input type; name the file after its datatype (.cu8, .ci16, .cf32) or give --format cu8|ci8|ci16_le|cf32_le, and --rate",
         ));
     };
     let Some(rate) = options.rate else {

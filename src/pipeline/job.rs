@@ -206,7 +206,7 @@ pub fn resolve_offset(tuning: Tuning, source: &dyn IqSource) -> Result<f64> {
             Some(centre) => Ok(carrier - centre),
             None => Err(Error::file(
                 &source.info().path,
-                "the recording has no centre frequency (core:frequency); use --offset instead of --carrier",
+                "the recording has no centre frequency (core:frequency); give it with --centre, or tune with --offset",
             )),
         },
     }
