@@ -1,20 +1,22 @@
 //! `amrx`: the command-line receiver. Argument parsing and wiring only; the work is in the
 //! library.
 
-use amrx::demod::{LoopSettings, Mode, Notch, ReceiverOptions, Sideband, SsbMethod, MODES};
+use amrx::demod::{
+    AudioLevel, LoopSettings, Mode, Notch, ReceiverOptions, Sideband, SsbMethod, MODES,
+};
 use amrx::dsp::AgcSettings;
 use amrx::io::{InputOptions, SampleFormat, StreamOptions};
 use amrx::lab::{self, Axis, SweepSpec};
 use amrx::measure::Limits;
-use amrx::pipeline::demo::{default_demo_dir, run_demo, DemoRow};
-use amrx::pipeline::synth_job::{run_scene_limited, DEFAULT_MAX_SAMPLES};
+use amrx::pipeline::demo::{default_demo_dir, run_demo_with_progress, DemoRow};
+use amrx::pipeline::synth_job::{run_scene_with_progress, DEFAULT_MAX_SAMPLES};
 use amrx::pipeline::{
     check_outputs, info, run_demod_until, run_measure, AudioTarget, DemodRequest, MeasureRequest,
-    Tuning,
+    Progress, Tuning,
 };
 use amrx::Error;
 use clap::{Args, Parser, Subcommand, ValueEnum};
-use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
+use indicatif::{ProgressBar, ProgressDrawTarget, ProgressState, ProgressStyle};
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -55,6 +57,9 @@ enum Command {
         /// Allow a scene of more than 2^30 samples (up to 2^40).
         #[arg(long)]
         allow_large: bool,
+        /// No progress bar.
+        #[arg(long)]
+        quiet: bool,
     },
     /// Measure detectors' output SNR against input SNR in noise, with theory overlaid.
     Sweep(SweepArgs),
@@ -62,6 +67,9 @@ enum Command {
     Demo {
         /// Folder for the recording, audio and reports (default: amrx-demo in the temp folder).
         dir: Option<PathBuf>,
+        /// No progress bar.
+        #[arg(long)]
+        quiet: bool,
     },
 }
 
@@ -130,9 +138,12 @@ struct DemodArgs {
     /// Carrier-loop damping (modes with a carrier loop).
     #[arg(long, allow_negative_numbers = true)]
     loop_damping: Option<f64>,
-    /// Gain control (the mode's default when absent).
+    /// Gain control. Default: a listening level (the mode's AGC; slow AGC for am and sam).
     #[arg(long, value_enum, conflicts_with = "gain")]
     agc: Option<AgcArg>,
+    /// Calibrated level for measuring: unity gain, no AGC (the audio keeps the signal's level).
+    #[arg(long, conflicts_with_all = ["agc", "gain"])]
+    calibrated: bool,
     /// Correct the front end's IQ gain and phase imbalance blindly (removes mirror images).
     #[arg(long)]
     iq_balance: bool,
@@ -312,9 +323,12 @@ fn main() -> ExitCode {
             out,
             datatype,
             allow_large,
-        } => synth(&scene, &out, datatype, allow_large).map(|()| 0),
+            quiet,
+        } => synth(&scene, &out, datatype, allow_large, quiet).map(|()| 0),
         Command::Sweep(args) => sweep(&args).map(|()| 0),
-        Command::Demo { dir } => demo(dir.unwrap_or_else(default_demo_dir)).map(|()| 0),
+        Command::Demo { dir, quiet } => {
+            demo(dir.unwrap_or_else(default_demo_dir), quiet).map(|()| 0)
+        }
     };
     match outcome {
         Ok(code) => ExitCode::from(code),
@@ -490,8 +504,8 @@ fn demod(args: DemodArgs) -> Result<u8, String> {
         audio,
         report: args.report.clone(),
     };
-    let bar = progress_bar(args.quiet, "samples");
-    let report = run_demod_until(&request, &|n| bar.set_position(n), &interruption.stop)
+    let bar = progress_bar(args.quiet, "demod");
+    let report = run_demod_until(&request, &|p| show_progress(&bar, p), &interruption.stop)
         .map_err(|e| with_input(&args.input, e));
     bar.finish_and_clear();
     let report = report?;
@@ -530,8 +544,8 @@ fn measure(args: &MeasureArgs) -> Result<(), String> {
         start_s: args.span.start,
         duration_s: args.span.duration,
     };
-    let bar = progress_bar(false, "samples");
-    let outcome = run_measure(&request, &|n| bar.set_position(n));
+    let bar = progress_bar(false, "measure");
+    let outcome = run_measure(&request, &|p| show_progress(&bar, p));
     bar.finish_and_clear();
     let outcome = outcome.map_err(|e| with_input(&args.input, e))?;
     for warning in &outcome.warnings {
@@ -568,7 +582,11 @@ fn receiver_options(args: &DemodArgs) -> ReceiverOptions {
         (None, Some(AgcArg::Speech)) => Some(AgcSettings::SPEECH),
         (None, Some(AgcArg::Slow)) => Some(AgcSettings::SLOW),
         (None, Some(AgcArg::Off)) => Some(AgcSettings::OFF),
-        (None, None) => None,
+        (None, None) => Some(if args.calibrated {
+            AudioLevel::Calibrated.agc(args.mode)
+        } else {
+            AudioLevel::Listening.agc(args.mode)
+        }),
     };
     ReceiverOptions {
         audio_rate: args.audio_rate,
@@ -595,16 +613,92 @@ fn receiver_options(args: &DemodArgs) -> ReceiverOptions {
     }
 }
 
-fn progress_bar(quiet: bool, unit: &str) -> ProgressBar {
+/// A progress bar on standard error (hidden with `--quiet` or when standard error is not a
+/// terminal). Without a total it counts and shows the rate; [`show_progress`] turns it into a
+/// bar with percentage and time left once the job says how long it is.
+fn progress_bar(quiet: bool, label: &str) -> ProgressBar {
     if quiet || !std::io::stderr().is_terminal() {
         return ProgressBar::with_draw_target(None, ProgressDrawTarget::hidden());
     }
     let bar = ProgressBar::no_length();
+    bar.set_prefix(label.to_string());
+    bar.set_style(samples_style(false));
+    bar
+}
+
+/// A job of known length: bar, percentage, samples in millions, rate, time left.
+const BAR_TEMPLATE: &str =
+    "{prefix} [{bar:30}] {percent:>3}%  {done_ms}/{total_ms} MS  {msps}  {elapsed} elapsed, {eta} left";
+/// A stream of unknown length: samples in millions, rate, time so far.
+const COUNT_TEMPLATE: &str = "{spinner} {prefix} {done_ms} MS  {msps}  {elapsed} elapsed";
+/// The sweep: trials, with percentage and time left.
+const SWEEP_TEMPLATE: &str =
+    "sweep [{bar:30}] {percent:>3}%  {pos}/{len} trials  {per_sec:.1}  {elapsed} elapsed, {eta} left";
+
+/// Samples in millions (MS) and the rate in MS/s; with a total, the bar, percentage and time left.
+fn samples_style(with_total: bool) -> ProgressStyle {
+    let template = if with_total {
+        BAR_TEMPLATE
+    } else {
+        COUNT_TEMPLATE
+    };
+    ProgressStyle::with_template(template)
+        .unwrap_or_else(|_| ProgressStyle::default_bar())
+        .progress_chars("=> ")
+        .with_key(
+            "done_ms",
+            |s: &ProgressState, w: &mut dyn std::fmt::Write| {
+                let _ = write!(w, "{}", mega(s.pos() as f64));
+            },
+        )
+        .with_key(
+            "total_ms",
+            |s: &ProgressState, w: &mut dyn std::fmt::Write| {
+                let _ = write!(w, "{}", mega(s.len().unwrap_or(0) as f64));
+            },
+        )
+        .with_key("msps", |s: &ProgressState, w: &mut dyn std::fmt::Write| {
+            let _ = write!(w, "{} MS/s", mega(s.per_sec()));
+        })
+}
+
+/// A count in millions with a precision that suits its size: 0.052, 1.25, 72.0, 1440.
+fn mega(count: f64) -> String {
+    let m = count / 1e6;
+    if !m.is_finite() {
+        "-".to_string()
+    } else if m < 1.0 {
+        format!("{m:.3}")
+    } else if m < 10.0 {
+        format!("{m:.2}")
+    } else if m < 1000.0 {
+        format!("{m:.1}")
+    } else {
+        format!("{m:.0}")
+    }
+}
+
+/// Moves the bar; the first report of a total turns the counter into a bar with time left.
+fn show_progress(bar: &ProgressBar, p: Progress) {
+    if let Some(total) = p.total {
+        if bar.length() != Some(total) {
+            bar.set_length(total);
+            bar.set_style(samples_style(true));
+        }
+    }
+    bar.set_position(p.done);
+}
+
+/// The sweep's bar: trials, with percentage and time left.
+fn trials_bar(quiet: bool, total: u64) -> ProgressBar {
+    if quiet || !std::io::stderr().is_terminal() {
+        return ProgressBar::with_draw_target(None, ProgressDrawTarget::hidden());
+    }
+    let bar = ProgressBar::new(total);
     bar.set_style(
-        ProgressStyle::with_template(&format!(
-            "{{spinner}} {{human_pos}} {unit}  {{per_sec}}  {{elapsed}}"
-        ))
-        .unwrap_or_else(|_| ProgressStyle::default_spinner()),
+        ProgressStyle::with_template(SWEEP_TEMPLATE)
+            .unwrap_or_else(|_| ProgressStyle::default_bar())
+            .progress_chars("=> "),
     );
     bar
 }
@@ -619,14 +713,17 @@ fn synth(
     out: &Path,
     datatype: Option<SampleFormat>,
     allow_large: bool,
+    quiet: bool,
 ) -> Result<(), String> {
     let limit = if allow_large {
         u64::MAX
     } else {
         DEFAULT_MAX_SAMPLES
     };
-    let summary =
-        run_scene_limited(scene, out, datatype, limit).map_err(|e| with_input(scene, e))?;
+    let bar = progress_bar(quiet, "synth");
+    let summary = run_scene_with_progress(scene, out, datatype, limit, &|p| show_progress(&bar, p));
+    bar.finish_and_clear();
+    let summary = summary.map_err(|e| with_input(scene, e))?;
     let mut text = String::new();
     outln!(
         text,
@@ -688,8 +785,7 @@ fn sweep(args: &SweepArgs) -> Result<(), String> {
     spec.trial.mu = args.mu;
     spec.trial.tone_hz = args.tone;
     spec.trial.bandwidth_hz = args.bandwidth;
-    let bar = progress_bar(args.quiet, "trials");
-    bar.set_length(spec.total_trials() as u64);
+    let bar = trials_bar(args.quiet, spec.total_trials() as u64);
     let result = lab::run_sweep(&spec, |p| bar.set_position(p.done as u64));
     bar.finish_and_clear();
     let result = result.map_err(in_cli_words)?;
@@ -708,8 +804,11 @@ fn sweep(args: &SweepArgs) -> Result<(), String> {
     emit(&text)
 }
 
-fn demo(dir: PathBuf) -> Result<(), String> {
-    let (recording, rows) = run_demo(&dir).map_err(|e| e.to_string())?;
+fn demo(dir: PathBuf, quiet: bool) -> Result<(), String> {
+    let bar = progress_bar(quiet, "demo");
+    let outcome = run_demo_with_progress(&dir, &|p| show_progress(&bar, p));
+    bar.finish_and_clear();
+    let (recording, rows) = outcome.map_err(|e| e.to_string())?;
     let mut text = String::new();
     outln!(
         text,
@@ -772,5 +871,43 @@ fn demo_line(row: &DemoRow) -> String {
                 r.warnings.join("; ")
             )
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn counts_read_in_millions_with_a_sensible_precision() {
+        assert_eq!(mega(52_000.0), "0.052");
+        assert_eq!(mega(5_393_500.817_8), "5.39");
+        assert_eq!(mega(72_000_000.0), "72.0");
+        assert_eq!(mega(1.44e9), "1440");
+        assert_eq!(mega(f64::NAN), "-");
+    }
+
+    #[test]
+    fn the_progress_templates_parse_and_a_total_turns_the_counter_into_a_bar() {
+        for template in [BAR_TEMPLATE, COUNT_TEMPLATE, SWEEP_TEMPLATE] {
+            assert!(ProgressStyle::with_template(template).is_ok(), "{template}");
+        }
+        let bar = ProgressBar::hidden();
+        show_progress(
+            &bar,
+            Progress {
+                done: 5,
+                total: None,
+            },
+        );
+        assert_eq!(bar.length(), None);
+        show_progress(
+            &bar,
+            Progress {
+                done: 6,
+                total: Some(10),
+            },
+        );
+        assert_eq!((bar.position(), bar.length()), (6, Some(10)));
     }
 }

@@ -186,7 +186,15 @@ fn swap_iq_mirrors_the_spectrum_of_a_file_and_of_a_stream() {
     let rms = |a: &[f32]| (a.iter().map(|x| x * x).sum::<f32>() / a.len() as f32).sqrt();
     let swapped = rms(&audio[4800..]);
     ok(&[
-        "demod", &rec, "--mode", "am", "--offset", "25000", "--agc", "off", "--out", &wav,
+        "demod",
+        &rec,
+        "--mode",
+        "am",
+        "--offset",
+        "25000",
+        "--calibrated",
+        "--out",
+        &wav,
         "--quiet",
     ]);
     let (plain, _) = read_wav(Path::new(&wav));

@@ -2,6 +2,7 @@
 //! windows turned into events and a verdict ([`Timeline`]).
 
 use super::job::{resolve_offset, Tuning};
+use super::progress::Progress;
 use crate::demod::{build_receiver, Mode, ReceiverConfig, ReceiverOptions};
 use crate::io::{open_input, InputOptions};
 use crate::measure::carrier_meter::DEFAULT_WINDOW_S;
@@ -91,8 +92,11 @@ pub fn check_outputs(input: &Path, outputs: &[&Path]) -> Result<()> {
 }
 
 /// Runs the request: an envelope (am) receiver measures every window; `progress` gets the
-/// samples read so far.
-pub fn run_measure(request: &MeasureRequest, progress: &dyn Fn(u64)) -> Result<MeasureOutcome> {
+/// samples read so far (and the total, when known).
+pub fn run_measure(
+    request: &MeasureRequest,
+    progress: &dyn Fn(Progress),
+) -> Result<MeasureOutcome> {
     let start_s = seconds("start_s", request.start_s)?;
     limit("limit_positive", request.limits.positive)?;
     limit("limit_negative", request.limits.negative)?;
@@ -121,7 +125,10 @@ pub fn run_measure(request: &MeasureRequest, progress: &dyn Fn(u64)) -> Result<M
             break;
         }
         read += n as u64;
-        progress(read);
+        progress(Progress {
+            done: read,
+            total: source.info().total_samples,
+        });
         let mut at = 0;
         while at < n {
             let (c, _) = receiver.process(&buf[at..n], &mut audio);
