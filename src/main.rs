@@ -5,7 +5,7 @@ use amrx::demod::{
     AudioLevel, LoopSettings, Mode, Notch, ReceiverOptions, Sideband, SsbMethod, MODES,
 };
 use amrx::dsp::AgcSettings;
-use amrx::io::{InputOptions, SampleFormat, StreamOptions};
+use amrx::io::{check_destination, InputOptions, SampleFormat, StreamOptions};
 use amrx::lab::{self, Axis, SweepSpec};
 use amrx::measure::Limits;
 use amrx::pipeline::demo::{default_demo_dir, run_demo_with_progress, DemoRow};
@@ -15,7 +15,7 @@ use amrx::pipeline::{
     Progress, Tuning,
 };
 use amrx::Error;
-use clap::{Args, Parser, Subcommand, ValueEnum};
+use clap::{Args, CommandFactory, Parser, Subcommand, ValueEnum};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressState, ProgressStyle};
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
@@ -25,7 +25,7 @@ use std::sync::Arc;
 
 /// Receiver for the amplitude-modulation family: IQ recordings in, audio out.
 #[derive(Parser, Debug)]
-#[command(name = "amrx", version, about)]
+#[command(name = "amrx", version, about, disable_help_subcommand = true)]
 struct Cli {
     #[command(subcommand)]
     command: Command,
@@ -49,10 +49,10 @@ enum Command {
         /// The scene file (JSON; schema in the amrx::synth::scene docs).
         scene: PathBuf,
         /// Output base name: writes BASE.sigmf-data and BASE.sigmf-meta.
-        #[arg(long)]
+        #[arg(long, allow_negative_numbers = true)]
         out: PathBuf,
         /// Sample datatype, overriding the scene's (complex types only).
-        #[arg(long, value_parser = parse_format)]
+        #[arg(long, allow_negative_numbers = true, value_parser = parse_format)]
         datatype: Option<SampleFormat>,
         /// Allow a scene of more than 2^30 samples (up to 2^40).
         #[arg(long)]
@@ -63,6 +63,11 @@ enum Command {
     },
     /// Measure detectors' output SNR against input SNR in noise, with theory overlaid.
     Sweep(SweepArgs),
+    /// Show the help of amrx or of one of its commands.
+    Help {
+        /// The command to explain (all commands when absent).
+        command: Option<String>,
+    },
     /// Write an invented scene of stations as SigMF, receive each, and print what was measured.
     Demo {
         /// Folder for the recording, audio and reports (default: amrx-demo in the temp folder).
@@ -76,13 +81,13 @@ enum Command {
 #[derive(Args, Debug)]
 struct InputArgs {
     /// Raw sample format (raw files and standard input).
-    #[arg(long, value_parser = parse_format)]
+    #[arg(long, allow_negative_numbers = true, value_parser = parse_format)]
     format: Option<SampleFormat>,
     /// Sample rate in Hz (raw input, or a SigMF recording without core:sample_rate).
     #[arg(long, allow_negative_numbers = true)]
     rate: Option<f64>,
     /// Channel of a multi-channel SigMF recording (0-based).
-    #[arg(long, default_value_t = 0)]
+    #[arg(long, allow_negative_numbers = true, default_value_t = 0)]
     channel: usize,
     /// Exchange I and Q (for front ends that deliver them swapped: the spectrum is mirrored).
     #[arg(long)]
@@ -109,7 +114,7 @@ struct DemodArgs {
     /// The IQ input (NAME.sigmf-meta or NAME.sigmf-data, an IQ WAV, a raw file, or -).
     input: PathBuf,
     /// Receive mode (the library's mode table: am, sam, dsb, usb, lsb, isb, vsb).
-    #[arg(long, value_parser = parse_mode)]
+    #[arg(long, allow_negative_numbers = true, value_parser = parse_mode)]
     mode: Mode,
     /// Carrier frequency relative to the recording centre, in Hz.
     #[arg(long, allow_negative_numbers = true, conflicts_with = "carrier")]
@@ -124,10 +129,10 @@ struct DemodArgs {
     #[arg(long, allow_negative_numbers = true)]
     bandwidth: Option<f64>,
     /// Sideband to keep (sam only).
-    #[arg(long, value_enum)]
+    #[arg(long, allow_negative_numbers = true, value_enum)]
     sideband: Option<SidebandArg>,
     /// Single-sideband method (usb, lsb, isb).
-    #[arg(long, value_enum)]
+    #[arg(long, allow_negative_numbers = true, value_enum)]
     ssb_method: Option<SsbMethodArg>,
     /// Lock to a pilot or full carrier when one is present (usb, lsb).
     #[arg(long)]
@@ -139,7 +144,12 @@ struct DemodArgs {
     #[arg(long, allow_negative_numbers = true)]
     loop_damping: Option<f64>,
     /// Gain control. Default: a listening level (the mode's AGC; slow AGC for am and sam).
-    #[arg(long, value_enum, conflicts_with = "gain")]
+    #[arg(
+        long,
+        allow_negative_numbers = true,
+        value_enum,
+        conflicts_with = "gain"
+    )]
     agc: Option<AgcArg>,
     /// Calibrated level for measuring: unity gain, no AGC (the audio keeps the signal's level).
     #[arg(long, conflicts_with_all = ["agc", "gain"])]
@@ -152,19 +162,19 @@ struct DemodArgs {
     noise_blanker: bool,
     /// Notch on the audio: `auto` finds and removes steady whistles, a number removes the tone
     /// at that audio frequency in Hz.
-    #[arg(long, value_parser = parse_notch)]
+    #[arg(long, allow_negative_numbers = true, value_parser = parse_notch)]
     notch: Option<Notch>,
     /// Fixed audio gain in dB instead of AGC.
     #[arg(long, allow_negative_numbers = true)]
     gain: Option<f64>,
     /// Output WAV file, or - for raw f32 on standard output.
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     out: PathBuf,
     /// Write 16-bit PCM instead of 32-bit float.
     #[arg(long)]
     pcm16: bool,
     /// Write a JSON report of what was measured.
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     report: Option<PathBuf>,
     /// No progress bar.
     #[arg(long)]
@@ -203,13 +213,13 @@ struct MeasureArgs {
     #[arg(long, allow_negative_numbers = true)]
     limit_negative: Option<f64>,
     /// Write windows, events and summary as JSON (fractions, 1.0 = 100 %).
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     json: Option<PathBuf>,
     /// Write one CSV row per window.
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     csv: Option<PathBuf>,
     /// Draw peaks, limits, carrier level and events as a PNG.
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     png: Option<PathBuf>,
     #[command(flatten)]
     span: SpanArgs,
@@ -220,10 +230,10 @@ struct MeasureArgs {
 #[derive(Args, Debug)]
 struct SweepArgs {
     /// Detectors, comma-separated: am, sam, dsb, usb, lsb, diode, diode:RC_MICROSECONDS.
-    #[arg(long, default_value = "am,sam,dsb,usb")]
+    #[arg(long, allow_negative_numbers = true, default_value = "am,sam,dsb,usb")]
     detectors: String,
     /// What the input axis sets: channel (baseband) SNR or carrier-to-noise ratio.
-    #[arg(long, value_enum, default_value = "snr")]
+    #[arg(long, allow_negative_numbers = true, value_enum, default_value = "snr")]
     axis: AxisArg,
     /// First input value in dB.
     #[arg(long, allow_negative_numbers = true, default_value_t = -12.0)]
@@ -232,31 +242,31 @@ struct SweepArgs {
     #[arg(long, allow_negative_numbers = true, default_value_t = 36.0)]
     to: f64,
     /// Step in dB.
-    #[arg(long, default_value_t = 2.0)]
+    #[arg(long, allow_negative_numbers = true, default_value_t = 2.0)]
     step: f64,
     /// Monte Carlo trials per point.
-    #[arg(long, default_value_t = 8)]
+    #[arg(long, allow_negative_numbers = true, default_value_t = 8)]
     trials: usize,
     /// Seconds of signal per trial (after settling).
-    #[arg(long, default_value_t = 0.5)]
+    #[arg(long, allow_negative_numbers = true, default_value_t = 0.5)]
     seconds: f64,
     /// Modulation index of the full-carrier test signal.
-    #[arg(long, default_value_t = 0.5)]
+    #[arg(long, allow_negative_numbers = true, default_value_t = 0.5)]
     mu: f64,
     /// Test tone in Hz.
-    #[arg(long, default_value_t = 1000.0)]
+    #[arg(long, allow_negative_numbers = true, default_value_t = 1000.0)]
     tone: f64,
     /// Message bandwidth W in Hz.
-    #[arg(long, default_value_t = 5000.0)]
+    #[arg(long, allow_negative_numbers = true, default_value_t = 5000.0)]
     bandwidth: f64,
     /// Seed of every random process.
-    #[arg(long, default_value_t = 1)]
+    #[arg(long, allow_negative_numbers = true, default_value_t = 1)]
     seed: u64,
     /// CSV output.
-    #[arg(long, default_value = "sweep.csv")]
+    #[arg(long, allow_negative_numbers = true, default_value = "sweep.csv")]
     csv: PathBuf,
     /// PNG plot output.
-    #[arg(long, default_value = "sweep.png")]
+    #[arg(long, allow_negative_numbers = true, default_value = "sweep.png")]
     png: PathBuf,
     /// No progress bar.
     #[arg(long)]
@@ -326,6 +336,7 @@ fn main() -> ExitCode {
             quiet,
         } => synth(&scene, &out, datatype, allow_large, quiet).map(|()| 0),
         Command::Sweep(args) => sweep(&args).map(|()| 0),
+        Command::Help { command } => help(command.as_deref()).map(|()| 0),
         Command::Demo { dir, quiet } => {
             demo(dir.unwrap_or_else(default_demo_dir), quiet).map(|()| 0)
         }
@@ -525,6 +536,15 @@ fn measure(args: &MeasureArgs) -> Result<(), String> {
         .map(PathBuf::as_path)
         .collect();
     check_outputs(&args.input, &outputs).map_err(|e| with_input(&args.input, e))?;
+    for (path, extension, what) in [
+        (&args.json, "json", "measurements"),
+        (&args.csv, "csv", "a table"),
+        (&args.png, "png", "a chart"),
+    ] {
+        if let Some(path) = path {
+            check_destination(path, &[extension], what).map_err(|e| e.to_string())?;
+        }
+    }
     let tuning = match (args.offset, args.carrier) {
         (Some(offset), _) => Tuning::Offset(offset),
         (None, Some(carrier)) => Tuning::Carrier(carrier),
@@ -703,6 +723,29 @@ fn trials_bar(quiet: bool, total: u64) -> ProgressBar {
     bar
 }
 
+/// `amrx help [COMMAND]`: the same text as `--help`.
+fn help(command: Option<&str>) -> Result<(), String> {
+    let mut cli = Cli::command();
+    cli.build();
+    let text = match command {
+        None => cli.render_long_help(),
+        Some(name) => match cli.find_subcommand_mut(name) {
+            Some(sub) => sub.render_long_help(),
+            None => {
+                let names: Vec<String> = Cli::command()
+                    .get_subcommands()
+                    .map(|c| c.get_name().to_string())
+                    .collect();
+                return Err(format!(
+                    "no command '{name}' (commands: {})",
+                    names.join(", ")
+                ));
+            }
+        },
+    };
+    emit(&text.to_string())
+}
+
 fn show_info(input: &Path, options: &InputArgs) -> Result<(), String> {
     let summary = info::describe(input, &options.options()).map_err(|e| with_input(input, e))?;
     emit(&summary.to_string())
@@ -772,6 +815,9 @@ fn synth(
 }
 
 fn sweep(args: &SweepArgs) -> Result<(), String> {
+    // Output paths first: a sweep can take minutes, a bad path must not wait for its end.
+    check_destination(&args.csv, &["csv"], "the sweep's table").map_err(|e| e.to_string())?;
+    check_destination(&args.png, &["png"], "the sweep's chart").map_err(|e| e.to_string())?;
     let detectors = lab::parse_detectors(&args.detectors).map_err(in_cli_words)?;
     let axis = match args.axis {
         AxisArg::Snr => Axis::Snr,
@@ -877,6 +923,63 @@ fn demo_line(row: &DemoRow) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The arguments each command cannot go without.
+    fn required(command: &str) -> Vec<&'static str> {
+        match command {
+            "demod" => vec!["demod", "in.cu8", "--mode", "am", "--out", "a.wav"],
+            "measure" => vec!["measure", "in.cu8", "--offset", "0"],
+            "info" => vec!["info", "in.cu8"],
+            "synth" => vec!["synth", "scene.json", "--out", "x"],
+            other => vec![Box::leak(other.to_string().into_boxed_str())],
+        }
+    }
+
+    #[test]
+    fn every_option_takes_a_negative_number_after_a_space() {
+        // `--step -2` must reach the option (and its own validation), never be read as an
+        // unknown flag `-2`: checked for every option of every command that takes a value.
+        let cli = Cli::command();
+        let mut checked = 0;
+        for sub in cli.get_subcommands() {
+            for arg in sub.get_arguments() {
+                let Some(long) = arg.get_long() else { continue };
+                if !arg.get_action().takes_values() {
+                    continue;
+                }
+                let mut argv = vec!["amrx".to_string()];
+                argv.extend(required(sub.get_name()).iter().map(|a| a.to_string()));
+                argv.push(format!("--{long}"));
+                argv.push("-2".to_string());
+                if let Err(e) = Cli::try_parse_from(&argv) {
+                    assert_ne!(
+                        e.kind(),
+                        clap::error::ErrorKind::UnknownArgument,
+                        "{argv:?}: {e}"
+                    );
+                }
+                checked += 1;
+            }
+        }
+        assert!(checked > 30, "{checked}");
+    }
+
+    #[test]
+    fn help_works_however_it_is_asked() {
+        for argv in [
+            vec!["amrx", "--help"],
+            vec!["amrx", "help", "--help"],
+            vec!["amrx", "demod", "--help"],
+        ] {
+            let e = Cli::try_parse_from(&argv).unwrap_err();
+            assert_eq!(e.kind(), clap::error::ErrorKind::DisplayHelp, "{argv:?}");
+        }
+        assert!(matches!(
+            Cli::try_parse_from(["amrx", "help", "demod"]).unwrap().command,
+            Command::Help { command: Some(ref c) } if c == "demod"
+        ));
+        assert!(help(Some("nosuch")).unwrap_err().contains("demod, measure"));
+    }
 
     #[test]
     fn counts_read_in_millions_with_a_sensible_precision() {

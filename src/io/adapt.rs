@@ -206,6 +206,10 @@ impl IqSource for Adapted {
         all.extend(self.notes.iter().cloned());
         all
     }
+
+    fn annotations(&self) -> &[super::SigmfAnnotation] {
+        self.inner.annotations()
+    }
 }
 
 #[cfg(test)]

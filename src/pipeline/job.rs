@@ -5,7 +5,8 @@ use super::report::Report;
 use super::runtime::{run_stream, RuntimeConfig};
 use crate::demod::{build_receiver, Mode, Receiver, ReceiverConfig, ReceiverOptions};
 use crate::io::{
-    check_not_input, open_input, AudioSink, InputOptions, IqSource, RawAudioSink, WavAudioSink,
+    check_destination, check_not_input, open_input, AudioSink, InputOptions, IqSource,
+    RawAudioSink, WavAudioSink, WavEncoding,
 };
 use crate::{Error, Result};
 use std::path::{Path, PathBuf};
@@ -94,6 +95,12 @@ pub fn run_demod_until(
     progress: &(dyn Fn(Progress) + Sync),
     stop: &AtomicBool,
 ) -> Result<Report> {
+    if let AudioTarget::Wav { path, .. } = &request.audio {
+        check_destination(path, &["wav", "wave"], "audio")?;
+    }
+    if let Some(report) = &request.report {
+        check_destination(report, &["json"], "the report")?;
+    }
     let mut source = open_input(&request.input, &request.input_options)?;
     let input_files = input_files(&request.input, &source.info().path);
     let inputs: Vec<&Path> = input_files.iter().map(PathBuf::as_path).collect();
@@ -281,8 +288,13 @@ fn open_sink(
         AudioTarget::Wav { path, pcm16 } => {
             let rate = receiver.audio_rate().round() as u32;
             let channels = receiver.audio_channels() as u16;
+            let encoding = if *pcm16 {
+                WavEncoding::Pcm16
+            } else {
+                WavEncoding::Float32
+            };
             Box::new(WavAudioSink::create_checked(
-                path, inputs, rate, channels, *pcm16,
+                path, inputs, rate, channels, encoding,
             )?)
         }
         AudioTarget::Stdout => Box::new(RawAudioSink::try_stdout()?),
