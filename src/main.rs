@@ -653,7 +653,7 @@ const BAR_TEMPLATE: &str =
 const COUNT_TEMPLATE: &str = "{spinner} {prefix} {done_ms} MS  {msps}  {elapsed} elapsed";
 /// The sweep: trials, with percentage and time left.
 const SWEEP_TEMPLATE: &str =
-    "sweep [{bar:30}] {percent:>3}%  {pos}/{len} trials  {per_sec:.1}  {elapsed} elapsed, {eta} left";
+    "sweep [{bar:30}] {percent:>3}%  {pos}/{len} trials  {trial_rate}  {elapsed} elapsed, {eta} left";
 
 /// Samples in millions (MS) and the rate in MS/s; with a total, the bar, percentage and time left.
 fn samples_style(with_total: bool) -> ProgressStyle {
@@ -718,7 +718,13 @@ fn trials_bar(quiet: bool, total: u64) -> ProgressBar {
     bar.set_style(
         ProgressStyle::with_template(SWEEP_TEMPLATE)
             .unwrap_or_else(|_| ProgressStyle::default_bar())
-            .progress_chars("=> "),
+            .progress_chars("=> ")
+            .with_key(
+                "trial_rate",
+                |s: &ProgressState, w: &mut dyn std::fmt::Write| {
+                    let _ = write!(w, "{:.1} trials/s", s.per_sec());
+                },
+            ),
     );
     bar
 }

@@ -95,12 +95,6 @@ pub fn run_demod_until(
     progress: &(dyn Fn(Progress) + Sync),
     stop: &AtomicBool,
 ) -> Result<Report> {
-    if let AudioTarget::Wav { path, .. } = &request.audio {
-        check_destination(path, &["wav", "wave"], "audio")?;
-    }
-    if let Some(report) = &request.report {
-        check_destination(report, &["json"], "the report")?;
-    }
     let mut source = open_input(&request.input, &request.input_options)?;
     let input_files = input_files(&request.input, &source.info().path);
     let inputs: Vec<&Path> = input_files.iter().map(PathBuf::as_path).collect();
@@ -109,6 +103,15 @@ pub fn run_demod_until(
         if let AudioTarget::Wav { path, .. } = &request.audio {
             check_not_input(report, &[path])?;
         }
+    }
+    // Before any sample is read: first that no output is an input, then that each is of a
+    // kind amrx writes, in a folder that exists.
+    if let AudioTarget::Wav { path, .. } = &request.audio {
+        check_not_input(path, &inputs)?;
+        check_destination(path, &["wav", "wave"], "audio")?;
+    }
+    if let Some(report) = &request.report {
+        check_destination(report, &["json"], "the report")?;
     }
     let offset_hz = resolve_offset(request.tuning, source.as_ref())?;
     let config = ReceiverConfig {
