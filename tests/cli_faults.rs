@@ -111,8 +111,12 @@ fn outputs_naming_an_input_are_refused_and_the_input_is_kept() {
 }
 
 /// Spawns `demod` reading raw `cf32_le` zeros from a pipe that never ends, sends `signal`
-/// once audio is being written, and returns (exit code, WAV path, report path).
-fn interrupted_run(name: &str, signal: &str) -> (Option<i32>, std::path::PathBuf, String) {
+/// once audio is being written, and returns (exit code, WAV path, report, and the folder, which
+/// is removed when dropped).
+fn interrupted_run(
+    name: &str,
+    signal: &str,
+) -> (Option<i32>, std::path::PathBuf, String, common::TempDir) {
     let dir = scratch_dir(name);
     let wav = dir.join("cut.wav");
     let report = dir.join("cut.json");
@@ -155,7 +159,7 @@ fn interrupted_run(name: &str, signal: &str) -> (Option<i32>, std::path::PathBuf
     feeder.join().unwrap();
     assert!(err.contains("interrupted"), "stderr: {err}");
     let report = std::fs::read_to_string(&report).expect("report written");
-    (code, wav, report)
+    (code, wav, report, dir)
 }
 
 fn assert_finalised(wav: &Path, report: &str) {
@@ -178,14 +182,14 @@ fn assert_finalised(wav: &Path, report: &str) {
 
 #[test]
 fn sigint_finalises_the_wav_and_the_report_and_exits_130() {
-    let (code, wav, report) = interrupted_run("faults-sigint", "-INT");
+    let (code, wav, report, _dir) = interrupted_run("faults-sigint", "-INT");
     assert_eq!(code, Some(130));
     assert_finalised(&wav, &report);
 }
 
 #[test]
 fn sigterm_finalises_the_wav_and_the_report_and_exits_143() {
-    let (code, wav, report) = interrupted_run("faults-sigterm", "-TERM");
+    let (code, wav, report, _dir) = interrupted_run("faults-sigterm", "-TERM");
     assert_eq!(code, Some(143));
     assert_finalised(&wav, &report);
 }
