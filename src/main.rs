@@ -231,10 +231,15 @@ struct SweepArgs {
     #[arg(long, default_value = "none")]
     fading: String,
     /// Impulsive noise: mean bursts per second (none without it).
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     impulse_rate: Option<f64>,
     /// Length of each impulse burst in microseconds.
-    #[arg(long, default_value_t = 40.0, requires = "impulse_rate")]
+    #[arg(
+        long,
+        allow_negative_numbers = true,
+        default_value_t = 40.0,
+        requires = "impulse_rate"
+    )]
     impulse_width: f64,
     /// Impulse burst power over the test signal's mean power, dB.
     #[arg(
@@ -251,6 +256,12 @@ struct SweepArgs {
     /// Merge the trial files of every shard (run with the same options) into the CSV and PNG.
     #[arg(long, value_name = "TRIAL_FILES", num_args = 1..)]
     merge: Vec<PathBuf>,
+    /// Receiver noise figure in dB: print the RF level for 12 dB SINAD and 10 dB (S+N)/N.
+    #[arg(long, allow_negative_numbers = true)]
+    noise_figure: Option<f64>,
+    /// Draw the audio SINAD against RF level (needs --noise-figure).
+    #[arg(long, requires = "noise_figure")]
+    sensitivity_png: Option<PathBuf>,
     /// CSV output (with --shard: the trial file, default sweep-K-of-N.trials.csv).
     #[arg(long)]
     csv: Option<PathBuf>,
@@ -436,6 +447,7 @@ fn flag_for(parameter: &str) -> Option<&'static str> {
         "impulse_level_db" => "--impulse-level",
         "shard" => "--shard",
         "shards" => "--merge",
+        "noise_figure_db" => "--noise-figure",
         "window_s" => "--window",
         "start_s" => "--start",
         "duration_s" => "--duration",
@@ -678,6 +690,9 @@ fn synth(
 }
 
 fn sweep(args: &SweepArgs) -> Result<(), String> {
+    if let Some(nf) = args.noise_figure {
+        lab::check_noise_figure(nf).map_err(in_cli_words)?;
+    }
     let detectors = lab::parse_detectors(&args.detectors).map_err(in_cli_words)?;
     let axis = match args.axis {
         AxisArg::Snr => Axis::Snr,
@@ -746,6 +761,15 @@ fn sweep(args: &SweepArgs) -> Result<(), String> {
     let mut text = String::new();
     for summary in lab::summary_lines(&result) {
         outln!(text, "{summary}");
+    }
+    if let Some(nf) = args.noise_figure {
+        for line in lab::sensitivity_lines(&result, nf) {
+            outln!(text, "{line}");
+        }
+        if let Some(png) = &args.sensitivity_png {
+            lab::write_sensitivity_png(&result, nf, png).map_err(|e| e.to_string())?;
+            outln!(text, "wrote {}", png.display());
+        }
     }
     outln!(text, "wrote {} and {}", csv.display(), args.png.display());
     emit(&text)

@@ -27,6 +27,9 @@ pub mod measure_plot;
 #[cfg(feature = "lab")]
 pub mod plot;
 pub mod rc_study;
+pub mod sensitivity;
+#[cfg(feature = "lab")]
+pub mod sensitivity_plot;
 pub mod shard;
 pub mod signal;
 pub mod summary;
@@ -43,6 +46,11 @@ pub use measure_plot::write_measure_png;
 #[cfg(feature = "lab")]
 pub use plot::write_png;
 pub use rc_study::{measure_rc, RcMeasurement};
+pub use sensitivity::{
+    check_noise_figure, sensitivities, sensitivity_lines, Criterion, Sensitivity,
+};
+#[cfg(feature = "lab")]
+pub use sensitivity_plot::write_sensitivity_png;
 pub use shard::{merge_trial_files, merge_trial_texts, trials_to_text, write_trials};
 pub use signal::{TestSignal, ToneSource};
 pub use summary::summary_lines;

@@ -33,7 +33,7 @@ pub(crate) fn register_font() -> Result<()> {
 
 /// One colour per detector, the same in every plot (the Tableau 10 palette's order; common
 /// practice, no source): the modes in table order, then one sideband of sam, then the diode.
-fn colour_for(detector: &Detector) -> RGBColor {
+pub(crate) fn colour_for(detector: &Detector) -> RGBColor {
     const PALETTE: [RGBColor; 10] = [
         RGBColor(31, 119, 180),
         RGBColor(214, 39, 40),
