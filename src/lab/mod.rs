@@ -32,6 +32,8 @@ pub mod sensitivity;
 pub mod sensitivity_plot;
 pub mod shard;
 pub mod signal;
+pub mod speech;
+pub mod stoi;
 pub mod summary;
 pub mod sweep;
 pub mod theory;
