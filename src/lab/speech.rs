@@ -54,6 +54,92 @@ pub fn speech_like(rate: f64, bandwidth_hz: f64, seconds: f64, seed: u64) -> Res
     Ok(out)
 }
 
+/// The rates and band of a speech trial: IQ at 40 kS/s with the carrier at +8 kHz, message
+/// band 150 Hz to 4 kHz, audio at STOI's 10 kHz.
+const SPEECH_IQ_RATE: f64 = 40_000.0;
+const SPEECH_OFFSET_HZ: f64 = 8_000.0;
+const SPEECH_BANDWIDTH_HZ: f64 = 4_000.0;
+const SPEECH_DECIMATION: usize = 4;
+
+/// One speech trial: `seconds` (after `settings.settle_s`) of the speech-like message on the
+/// detector's transmission (full-carrier AM of peak index `settings.mu`, or DSB-SC), through
+/// `settings.channel`, with white noise at `channel_snr_db` (mean power over N0·W,
+/// W = 4 kHz), received with AGC off at 10 kHz audio; returns the STOI of the audio against
+/// the message. The noise comes from `noise_seed`, the message, fading and impulses from
+/// `seed`. Errors: a detector whose test signal is neither (SSB, ISB and VSB speech trials
+/// are not built yet), or a receiver that cannot be built.
+pub fn speech_trial(
+    detector: &super::Detector,
+    settings: &super::TrialSettings,
+    channel_snr_db: f64,
+    seed: u64,
+    noise_seed: u64,
+) -> Result<f64> {
+    use super::signal::TestSignal;
+    use crate::Complex32;
+    let total = settings.seconds + settings.settle_s;
+    let message = speech_like(SPEECH_IQ_RATE, SPEECH_BANDWIDTH_HZ, total, seed)?;
+    let step = SPEECH_OFFSET_HZ / SPEECH_IQ_RATE;
+    let carrier = |n: usize| {
+        let phase = std::f64::consts::TAU * (n as f64 * step).fract();
+        Complex32::from_polar(1.0, phase as f32)
+    };
+    let iq: Vec<Complex32> = match detector.test_signal()? {
+        TestSignal::FullCarrier => message
+            .iter()
+            .enumerate()
+            .map(|(n, m)| carrier(n) * (1.0 + settings.mu * m) as f32)
+            .collect(),
+        TestSignal::SuppressedCarrier => message
+            .iter()
+            .enumerate()
+            .map(|(n, m)| carrier(n) * *m as f32)
+            .collect(),
+        _ => {
+            return Err(Error::parameter(
+                "detectors",
+                detector.name(),
+                "speech trials cover full-carrier AM and DSB-SC detectors",
+            ))
+        }
+    };
+    let channel = settings.channel;
+    let mut iq = channel.fade(iq, SPEECH_IQ_RATE, seed)?;
+    let power = iq.iter().map(|z| f64::from(z.norm_sqr())).sum::<f64>() / iq.len().max(1) as f64;
+    channel.add_impulses(&mut iq, power, SPEECH_IQ_RATE, seed ^ 0x1_5eed)?;
+    let noise =
+        super::theory::noise_power(power, channel_snr_db, SPEECH_BANDWIDTH_HZ, SPEECH_IQ_RATE);
+    crate::dsp::ComplexNoise::try_new(noise, noise_seed)?.add_to(&mut iq);
+    let mut config = settings.receiver_config();
+    config.input_rate = SPEECH_IQ_RATE;
+    config.offset_hz = SPEECH_OFFSET_HZ;
+    config.options.audio_rate = SPEECH_IQ_RATE / SPEECH_DECIMATION as f64;
+    config.options.bandwidth_hz = Some(SPEECH_BANDWIDTH_HZ);
+    let mut receiver = detector.build(&config)?;
+    let audio = crate::block::process_to_vec(receiver.as_mut(), &iq);
+    let channels = receiver.audio_channels();
+    // Align: drop the receiver's delay (input samples, so / 4 at the audio rate).
+    let lag = (receiver.delay() / SPEECH_DECIMATION as f64).round() as usize;
+    let skip = (settings.settle_s * config.options.audio_rate).round() as usize;
+    let clean: Vec<f64> = message.iter().step_by(SPEECH_DECIMATION).copied().collect();
+    let heard: Vec<f64> = audio
+        .iter()
+        .skip(detector.audio_channel())
+        .step_by(channels)
+        .skip(lag)
+        .map(|&v| f64::from(v))
+        .collect();
+    let len = clean.len().min(heard.len());
+    if len <= skip {
+        return Err(Error::parameter(
+            "seconds",
+            settings.seconds,
+            "too short a speech trial",
+        ));
+    }
+    super::stoi::stoi(&clean[skip..len], &heard[skip..len], super::stoi::STOI_RATE)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -76,5 +162,26 @@ mod tests {
         assert!((0.15..0.5).contains(&silent), "{silent}");
         assert_eq!(m, speech_like(10_000.0, 4000.0, 10.0, 3).unwrap());
         assert!(m.iter().all(|v| v.abs() <= 1.5));
+    }
+
+    #[test]
+    fn speech_through_the_receivers() {
+        // STOI falls with the SNR for every detector; above threshold (30 dB) am and sam read
+        // as clean (> 0.9) and every detector reads lower at 0 dB (measured: am 0.96 → 0.27,
+        // sam 0.96 → 0.30, dsb 1.00 → 0.88).
+        use crate::demod::Mode;
+        let s = crate::lab::TrialSettings {
+            seconds: 2.0,
+            ..Default::default()
+        };
+        for mode in [Mode::Am, Mode::Sam, Mode::Dsb] {
+            let d = crate::lab::Detector::Receiver(mode);
+            let hi = speech_trial(&d, &s, 30.0, 1, 2).unwrap();
+            let lo = speech_trial(&d, &s, 0.0, 1, 2).unwrap();
+            eprintln!("{mode}: STOI {hi:.3} at 30 dB, {lo:.3} at 0 dB");
+            assert!(hi > 0.9 && lo < hi, "{mode}: {hi} {lo}");
+        }
+        let usb = crate::lab::Detector::Receiver(Mode::Usb);
+        assert!(speech_trial(&usb, &s, 30.0, 1, 2).is_err());
     }
 }
