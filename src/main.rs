@@ -229,7 +229,8 @@ struct MeasureArgs {
 
 #[derive(Args, Debug)]
 struct SweepArgs {
-    /// Detectors, comma-separated: am, sam, dsb, usb, lsb, diode, diode:RC_MICROSECONDS.
+    /// Detectors, comma-separated: am, sam, dsb, usb, lsb, isb, vsb, sam:upper, sam:lower,
+    /// diode, diode:RC_MICROSECONDS.
     #[arg(long, allow_negative_numbers = true, default_value = "am,sam,dsb,usb")]
     detectors: String,
     /// What the input axis sets: channel (baseband) SNR or carrier-to-noise ratio.
@@ -262,9 +263,45 @@ struct SweepArgs {
     /// Seed of every random process.
     #[arg(long, allow_negative_numbers = true, default_value_t = 1)]
     seed: u64,
-    /// CSV output.
-    #[arg(long, allow_negative_numbers = true, default_value = "sweep.csv")]
-    csv: PathBuf,
+    /// Fading of the test signal: none, or a standard HF condition (good, moderate, poor,
+    /// flutter, mid-latitude-quiet, ...).
+    #[arg(long, default_value = "none")]
+    fading: String,
+    /// Impulsive noise: mean bursts per second (none without it).
+    #[arg(long, allow_negative_numbers = true)]
+    impulse_rate: Option<f64>,
+    /// Length of each impulse burst in microseconds.
+    #[arg(
+        long,
+        allow_negative_numbers = true,
+        default_value_t = 40.0,
+        requires = "impulse_rate"
+    )]
+    impulse_width: f64,
+    /// Impulse burst power over the test signal's mean power, dB.
+    #[arg(
+        long,
+        allow_negative_numbers = true,
+        default_value_t = 30.0,
+        requires = "impulse_rate"
+    )]
+    impulse_level: f64,
+    /// Run only the K-th of N disjoint slices of the trials (K/N) and write their trial
+    /// file to --csv; merge the files with --merge.
+    #[arg(long, value_name = "K/N", conflicts_with = "merge")]
+    shard: Option<String>,
+    /// Merge the trial files of every shard (run with the same options) into the CSV and PNG.
+    #[arg(long, value_name = "TRIAL_FILES", num_args = 1..)]
+    merge: Vec<PathBuf>,
+    /// Receiver noise figure in dB: print the RF level for 12 dB SINAD and 10 dB (S+N)/N.
+    #[arg(long, allow_negative_numbers = true)]
+    noise_figure: Option<f64>,
+    /// Draw the audio SINAD against RF level (needs --noise-figure).
+    #[arg(long, requires = "noise_figure")]
+    sensitivity_png: Option<PathBuf>,
+    /// CSV output (with --shard: the trial file, default sweep-K-of-N.trials.csv).
+    #[arg(long, allow_negative_numbers = true)]
+    csv: Option<PathBuf>,
     /// PNG plot output.
     #[arg(long, allow_negative_numbers = true, default_value = "sweep.png")]
     png: PathBuf,
@@ -450,6 +487,13 @@ fn flag_for(parameter: &str) -> Option<&'static str> {
         "tone_hz" => "--tone",
         "mu" => "--mu",
         "range_db" | "input_db" => "--from/--to/--step",
+        "fading" => "--fading",
+        "impulse_rate_hz" => "--impulse-rate",
+        "impulse_width_s" => "--impulse-width",
+        "impulse_level_db" => "--impulse-level",
+        "shard" => "--shard",
+        "shards" => "--merge",
+        "noise_figure_db" => "--noise-figure",
         "window_s" => "--window",
         "start_s" => "--start",
         "duration_s" => "--duration",
@@ -822,8 +866,15 @@ fn synth(
 
 fn sweep(args: &SweepArgs) -> Result<(), String> {
     // Output paths first: a sweep can take minutes, a bad path must not wait for its end.
-    check_destination(&args.csv, &["csv"], "the sweep's table").map_err(|e| e.to_string())?;
+    let table = args.csv.as_deref().unwrap_or(Path::new("sweep.csv"));
+    check_destination(table, &["csv"], "the sweep's table").map_err(|e| e.to_string())?;
     check_destination(&args.png, &["png"], "the sweep's chart").map_err(|e| e.to_string())?;
+    if let Some(png) = &args.sensitivity_png {
+        check_destination(png, &["png"], "the sensitivity chart").map_err(|e| e.to_string())?;
+    }
+    if let Some(nf) = args.noise_figure {
+        lab::check_noise_figure(nf).map_err(in_cli_words)?;
+    }
     let detectors = lab::parse_detectors(&args.detectors).map_err(in_cli_words)?;
     let axis = match args.axis {
         AxisArg::Snr => Axis::Snr,
@@ -837,22 +888,70 @@ fn sweep(args: &SweepArgs) -> Result<(), String> {
     spec.trial.mu = args.mu;
     spec.trial.tone_hz = args.tone;
     spec.trial.bandwidth_hz = args.bandwidth;
-    let bar = trials_bar(args.quiet, spec.total_trials() as u64);
-    let result = lab::run_sweep(&spec, |p| bar.set_position(p.done as u64));
-    bar.finish_and_clear();
+    spec.trial.channel = lab::ChannelCondition {
+        fading: lab::ChannelCondition::parse_fading(&args.fading).map_err(in_cli_words)?,
+        impulses: args.impulse_rate.map(|rate_hz| lab::Impulses {
+            rate_hz,
+            width_s: args.impulse_width * 1e-6,
+            level_db: args.impulse_level,
+        }),
+    };
+    let shard: Option<lab::Shard> = args
+        .shard
+        .as_deref()
+        .map(str::parse)
+        .transpose()
+        .map_err(in_cli_words)?;
+    if let Some(shard) = shard {
+        let path = args.csv.clone().unwrap_or_else(|| {
+            PathBuf::from(format!(
+                "sweep-{}-of-{}.trials.csv",
+                shard.index, shard.count
+            ))
+        });
+        let total = (0..spec.total_trials())
+            .filter(|&j| shard.contains(j))
+            .count();
+        let bar = trials_bar(args.quiet, total as u64);
+        let outputs = lab::run_shard(&spec, shard, |p| bar.set_position(p.done as u64));
+        bar.finish_and_clear();
+        let outputs = outputs.map_err(in_cli_words)?;
+        lab::write_trials(&spec, shard, &outputs, &path).map_err(|e| e.to_string())?;
+        return emit(&format!(
+            "wrote {} trials of shard {shard} to {}; merge every shard's file with the same options and --merge\n",
+            outputs.len(),
+            path.display()
+        ));
+    }
+    let result = if args.merge.is_empty() {
+        let bar = trials_bar(args.quiet, spec.total_trials() as u64);
+        let result = lab::run_sweep(&spec, |p| bar.set_position(p.done as u64));
+        bar.finish_and_clear();
+        result
+    } else {
+        lab::merge_trial_files(&spec, &args.merge)
+    };
     let result = result.map_err(in_cli_words)?;
-    lab::write_csv(&result, &args.csv).map_err(|e| e.to_string())?;
+    let csv = args
+        .csv
+        .clone()
+        .unwrap_or_else(|| PathBuf::from("sweep.csv"));
+    lab::write_csv(&result, &csv).map_err(|e| e.to_string())?;
     lab::write_png(&result, &args.png).map_err(|e| e.to_string())?;
     let mut text = String::new();
     for summary in lab::summary_lines(&result) {
         outln!(text, "{summary}");
     }
-    outln!(
-        text,
-        "wrote {} and {}",
-        args.csv.display(),
-        args.png.display()
-    );
+    if let Some(nf) = args.noise_figure {
+        for line in lab::sensitivity_lines(&result, nf) {
+            outln!(text, "{line}");
+        }
+        if let Some(png) = &args.sensitivity_png {
+            lab::write_sensitivity_png(&result, nf, png).map_err(|e| e.to_string())?;
+            outln!(text, "wrote {}", png.display());
+        }
+    }
+    outln!(text, "wrote {} and {}", csv.display(), args.png.display());
     emit(&text)
 }
 

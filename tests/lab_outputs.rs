@@ -71,6 +71,11 @@ fn png_is_written_whole() {
 
 #[test]
 fn unavailable_detectors_are_reported() {
-    let spec = SweepSpec::new(vec![Detector::Receiver(Mode::Isb)], Axis::Snr, vec![0.0]);
+    // vsb is measured with its tone above the vestige (750 Hz); isb and vsb have no CNR axis.
+    let mut spec = SweepSpec::new(vec![Detector::Receiver(Mode::Vsb)], Axis::Snr, vec![0.0]);
+    spec.trial.tone_hz = 500.0;
     assert!(run_sweep(&spec, |_| {}).is_err());
+    let spec = SweepSpec::new(vec![Detector::Receiver(Mode::Isb)], Axis::Cnr, vec![0.0]);
+    assert!(run_sweep(&spec, |_| {}).is_err());
+    assert!("fm".parse::<Detector>().is_err());
 }

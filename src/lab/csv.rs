@@ -7,10 +7,11 @@ use std::path::Path;
 
 /// The header row.
 pub const CSV_HEADER: &str =
-    "detector,axis,input_db,channel_snr_db,cnr_db,output_snr_db,theory_db,trials,stderr_db";
+    "detector,axis,input_db,channel_snr_db,cnr_db,output_snr_db,theory_db,trials,stderr_db,channel";
 
 /// The sweep as CSV text: columns as in [`CSV_HEADER`], dB to 3 decimals, `cnr_db` empty
-/// without a carrier and `stderr_db` empty for a single trial. `output_snr_db` is the mean
+/// without a carrier and `stderr_db` empty for a single trial; `channel` names the fading and
+/// impulses besides the white noise (`none`). `output_snr_db` is the mean
 /// over the trials of the linear output SNR, in dB; `stderr_db` is its standard error.
 pub fn to_csv(result: &SweepResult) -> String {
     let mut out = String::from(CSV_HEADER);
@@ -24,7 +25,7 @@ pub fn to_csv(result: &SweepResult) -> String {
             // Writing to a String cannot fail.
             let _ = writeln!(
                 out,
-                "{},{},{:.3},{:.3},{},{:.3},{:.3},{},{}",
+                "{},{},{:.3},{:.3},{},{:.3},{:.3},{},{},{}",
                 curve.detector.name(),
                 result.spec.axis.name(),
                 p.input_db,
@@ -34,6 +35,7 @@ pub fn to_csv(result: &SweepResult) -> String {
                 p.theory_db,
                 p.trials,
                 optional(Some(p.stderr_db)),
+                result.spec.trial.channel,
             );
         }
     }

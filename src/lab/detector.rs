@@ -3,8 +3,12 @@
 
 use super::diode_receiver::diode_receiver;
 use super::signal::TestSignal;
-use super::theory::{full_carrier_figure_of_merit, SUPPRESSED_CARRIER_FIGURE_OF_MERIT};
-use crate::demod::{build_receiver, Mode, Receiver, ReceiverConfig, Transmission, MODES};
+use super::theory::{
+    full_carrier_figure_of_merit, one_sideband_figure_of_merit, vestigial_figure_of_merit,
+    SUPPRESSED_CARRIER_FIGURE_OF_MERIT,
+};
+use crate::demod::vsb::DEFAULT_VESTIGE_HZ;
+use crate::demod::{build_receiver, Mode, Receiver, ReceiverConfig, Sideband, Transmission, MODES};
 use crate::{Error, Result};
 use std::fmt;
 use std::str::FromStr;
@@ -12,8 +16,10 @@ use std::str::FromStr;
 /// A detector under test.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Detector {
-    /// The receiver [`build_receiver`] gives for this mode (am, sam, dsb, usb, lsb).
+    /// The receiver [`build_receiver`] gives for this mode with its defaults (every mode).
     Receiver(Mode),
+    /// The synchronous AM receiver (`sam`) keeping one sideband (`sam:upper`, `sam:lower`).
+    SamSideband(Sideband),
     /// The diode-and-RC detector ([`crate::demod::DiodeDetector`]) with this time constant.
     Diode {
         /// RC in seconds.
@@ -39,6 +45,7 @@ impl Detector {
     pub fn name(&self) -> String {
         match self {
             Detector::Receiver(mode) => mode.name().to_string(),
+            Detector::SamSideband(side) => format!("sam:{}", side.name()),
             Detector::Diode { rc_s } if *rc_s == Self::DIODE_RC_S => "diode".to_string(),
             Detector::Diode { rc_s } => format!("diode:{}", (rc_s * 1e9).round() / 1e3),
         }
@@ -50,7 +57,11 @@ impl Detector {
             Detector::Receiver(Mode::Am) => "am (envelope)".to_string(),
             Detector::Receiver(Mode::Sam) => "sam (synchronous)".to_string(),
             Detector::Receiver(Mode::Dsb) => "dsb (coherent)".to_string(),
+            Detector::Receiver(Mode::Isb) => "isb (coherent, upper channel)".to_string(),
             Detector::Receiver(mode) => format!("{mode} (coherent)"),
+            Detector::SamSideband(side) => {
+                format!("sam:{} (synchronous, one sideband)", side.name())
+            }
             Detector::Diode { rc_s } => format!("diode, RC {:.0} µs", rc_s * 1e6),
         }
     }
@@ -58,7 +69,9 @@ impl Detector {
     /// The tone signal this detector is measured with.
     pub fn test_signal(&self) -> Result<TestSignal> {
         let mode = match self {
-            Detector::Diode { .. } => return Ok(TestSignal::FullCarrier),
+            Detector::Diode { .. } | Detector::SamSideband(_) => {
+                return Ok(TestSignal::FullCarrier)
+            }
             Detector::Receiver(mode) => *mode,
         };
         lab_signal(mode.spec().transmission).ok_or_else(|| {
@@ -75,13 +88,28 @@ impl Detector {
         matches!(self.test_signal(), Ok(TestSignal::FullCarrier))
     }
 
-    /// The theoretical figure of merit above threshold: μ²/(2+μ²) with a full carrier, 1 for
-    /// DSB-SC and SSB (Haykin, Communication Systems, ch. 2).
-    pub fn figure_of_merit(&self, mu: f64) -> f64 {
-        if self.has_carrier() {
-            full_carrier_figure_of_merit(mu)
-        } else {
-            SUPPRESSED_CARRIER_FIGURE_OF_MERIT
+    /// The output channel the lab measures: 0, except `isb`, measured on its upper-sideband
+    /// channel (1), where its test tone is.
+    pub fn audio_channel(&self) -> usize {
+        match self {
+            Detector::Receiver(Mode::Isb) => 1,
+            _ => 0,
+        }
+    }
+
+    /// The theoretical figure of merit above threshold for a tone of index `mu` in message
+    /// bandwidth `bandwidth_hz`: μ²/(2+μ²) with a full carrier and both sidebands, 1 for
+    /// DSB-SC and SSB (Haykin, Communication Systems, ch. 2); μ²/(2(2+μ²)) for synchronous
+    /// detection of one sideband of full-carrier AM and μ²/(4+μ²)·W/(W − f_v/3) for `vsb`
+    /// (derived in the same convention: see [`super::theory`]).
+    pub fn figure_of_merit(&self, mu: f64, bandwidth_hz: f64) -> f64 {
+        match self {
+            Detector::SamSideband(_) => one_sideband_figure_of_merit(mu),
+            Detector::Receiver(Mode::Vsb) => {
+                vestigial_figure_of_merit(mu, bandwidth_hz, DEFAULT_VESTIGE_HZ)
+            }
+            _ if self.has_carrier() => full_carrier_figure_of_merit(mu),
+            _ => SUPPRESSED_CARRIER_FIGURE_OF_MERIT,
         }
     }
 
@@ -90,6 +118,11 @@ impl Detector {
         self.test_signal()?;
         match self {
             Detector::Receiver(mode) => build_receiver(*mode, config),
+            Detector::SamSideband(side) => {
+                let mut config = *config;
+                config.options.sideband = Some(*side);
+                build_receiver(Mode::Sam, &config)
+            }
             Detector::Diode { rc_s } => {
                 if config.options.bandwidth_hz.is_none() {
                     return Err(Error::parameter(
@@ -113,9 +146,17 @@ impl fmt::Display for Detector {
 impl FromStr for Detector {
     type Err = Error;
 
-    /// `am`, `sam`, `dsb`, `usb`, `lsb`, `diode`, or `diode:<RC in µs>`.
+    /// A mode's name (`am`, `sam`, `dsb`, `usb`, `lsb`, `isb`, `vsb`), `sam:upper`,
+    /// `sam:lower`, `diode`, or `diode:<RC in µs>`.
     fn from_str(s: &str) -> Result<Self> {
         let s = s.trim();
+        if let Some(side) = s.strip_prefix("sam:") {
+            return match side.to_ascii_lowercase().as_str() {
+                "upper" => Ok(Detector::SamSideband(Sideband::Upper)),
+                "lower" => Ok(Detector::SamSideband(Sideband::Lower)),
+                _ => Err(Error::parameter("detectors", s, "sam:upper or sam:lower")),
+            };
+        }
         if s.eq_ignore_ascii_case("diode") {
             return Ok(Detector::diode());
         }
@@ -137,7 +178,6 @@ impl FromStr for Detector {
     }
 }
 
-/// Parses a comma-separated detector list such as `am,diode,sam`.
 /// The lab's test signal for a transmission, where the lab has one.
 fn lab_signal(transmission: Transmission) -> Option<TestSignal> {
     match transmission {
@@ -145,7 +185,9 @@ fn lab_signal(transmission: Transmission) -> Option<TestSignal> {
         Transmission::SuppressedCarrier => Some(TestSignal::SuppressedCarrier),
         Transmission::UpperSideband => Some(TestSignal::UpperSideband),
         Transmission::LowerSideband => Some(TestSignal::LowerSideband),
-        Transmission::IndependentSidebands | Transmission::Vestigial => None,
+        // The tone in the upper sideband, measured on the upper channel.
+        Transmission::IndependentSidebands => Some(TestSignal::UpperSideband),
+        Transmission::Vestigial => Some(TestSignal::Vestigial),
     }
 }
 
@@ -157,7 +199,7 @@ pub fn lab_names() -> String {
         .filter(|m| lab_signal(m.transmission).is_some())
         .map(|m| m.name)
         .collect();
-    names.push("diode");
+    names.extend(["sam:upper", "sam:lower", "diode"]);
     names.join(", ")
 }
 
@@ -175,11 +217,23 @@ mod tests {
 
     #[test]
     fn names_round_trip() {
-        for name in ["am", "sam", "dsb", "usb", "lsb", "diode", "diode:200"] {
+        for name in [
+            "am",
+            "sam",
+            "dsb",
+            "usb",
+            "lsb",
+            "isb",
+            "vsb",
+            "sam:upper",
+            "sam:lower",
+            "diode",
+            "diode:200",
+        ] {
             let d: Detector = name.parse().unwrap();
             assert_eq!(d.name(), name);
         }
-        assert!("isb".parse::<Detector>().is_err());
+        assert!("sam:middle".parse::<Detector>().is_err());
         assert!("diode:-3".parse::<Detector>().is_err());
         assert!("fm".parse::<Detector>().is_err());
         assert_eq!(parse_detectors("am, diode").unwrap().len(), 2);
@@ -189,10 +243,15 @@ mod tests {
     fn signals_and_theory_per_detector() {
         let am = Detector::Receiver(Mode::Am);
         assert_eq!(am.test_signal().unwrap(), TestSignal::FullCarrier);
-        assert!((am.figure_of_merit(1.0) - 1.0 / 3.0).abs() < 1e-12);
+        assert!((am.figure_of_merit(1.0, 5000.0) - 1.0 / 3.0).abs() < 1e-12);
         let usb = Detector::Receiver(Mode::Usb);
         assert_eq!(usb.test_signal().unwrap(), TestSignal::UpperSideband);
-        assert_eq!(usb.figure_of_merit(0.5), 1.0);
+        assert_eq!(usb.figure_of_merit(0.5, 5000.0), 1.0);
+        // One sideband of full-carrier AM: half the two-sideband figure (−3 dB).
+        let one = Detector::SamSideband(Sideband::Upper).figure_of_merit(0.5, 5000.0);
+        assert!((one - am.figure_of_merit(0.5, 5000.0) / 2.0).abs() < 1e-12);
+        assert_eq!(Detector::Receiver(Mode::Isb).audio_channel(), 1);
+        assert!(!Detector::Receiver(Mode::Vsb).has_carrier());
         assert!(!Detector::Receiver(Mode::Dsb).has_carrier());
         assert!(Detector::diode().has_carrier());
     }

@@ -1,5 +1,6 @@
-//! The tone test signal each detector is measured with: full-carrier AM, DSB-SC, or SSB (one
-//! complex line), at complex baseband with the carrier at an offset.
+//! The tone test signal each detector is measured with: full-carrier AM, DSB-SC, SSB (one
+//! complex line), or a carrier with one sideband line (VSB with the tone above the vestige),
+//! at complex baseband with the carrier at an offset.
 
 use crate::synth::AmToneTransmitter;
 use crate::{Complex32, Error, Result};
@@ -16,6 +17,9 @@ pub enum TestSignal {
     UpperSideband,
     /// A·e^{j(ω_c − ω_m)t}.
     LowerSideband,
+    /// A_c·(1 + (μ/2)·e^{jω_m t})·e^{jω_c t}: the carrier and the upper line of full-carrier
+    /// AM, which is what a vestigial-sideband transmitter sends for a tone above its vestige.
+    Vestigial,
 }
 
 /// A generator of one [`TestSignal`] scaled to a given mean power mean|s|².
@@ -29,6 +33,19 @@ pub enum ToneSource {
         kind: TestSignal,
         /// Peak amplitude A.
         amplitude: f64,
+        /// Tone step in cycles per sample.
+        tone_step: f64,
+        /// Carrier step in cycles per sample.
+        carrier_step: f64,
+        /// Sample index.
+        n: u64,
+    },
+    /// A carrier and its upper line, phases in f64 cycles.
+    Vestigial {
+        /// Carrier amplitude A_c.
+        carrier: f64,
+        /// Modulation index μ (the line has amplitude μ·A_c/2).
+        mu: f64,
         /// Tone step in cycles per sample.
         tone_step: f64,
         /// Carrier step in cycles per sample.
@@ -59,6 +76,17 @@ impl ToneSource {
                 let tx = AmToneTransmitter::new(a_c, mu, tone_hz, offset_hz, rate)?;
                 Ok(ToneSource::FullCarrier(tx))
             }
+            TestSignal::Vestigial => {
+                AmToneTransmitter::new(1.0, mu, tone_hz, offset_hz, rate)?;
+                // mean|s|² = A_c²(1 + μ²/4): the carrier and one line of amplitude μA_c/2.
+                Ok(ToneSource::Vestigial {
+                    carrier: (power / (1.0 + mu * mu / 4.0)).sqrt(),
+                    mu,
+                    tone_step: tone_hz / rate,
+                    carrier_step: offset_hz / rate,
+                    n: 0,
+                })
+            }
             _ => {
                 // Validates the tone and offset the same way as the full-carrier transmitter.
                 AmToneTransmitter::new(1.0, 0.0, tone_hz, offset_hz, rate)?;
@@ -82,6 +110,23 @@ impl ToneSource {
     pub fn fill(&mut self, out: &mut [Complex32]) {
         match self {
             ToneSource::FullCarrier(tx) => tx.fill(out),
+            ToneSource::Vestigial {
+                carrier,
+                mu,
+                tone_step,
+                carrier_step,
+                n,
+            } => {
+                for s in out.iter_mut() {
+                    let k = *n as f64;
+                    let tone = (k * *tone_step).fract();
+                    let phase = (k * *carrier_step).fract();
+                    let line = Complex32::from_polar((*mu / 2.0) as f32, (TAU * tone) as f32);
+                    *s = Complex32::from_polar(*carrier as f32, (TAU * phase) as f32)
+                        * (Complex32::new(1.0, 0.0) + line);
+                    *n += 1;
+                }
+            }
             ToneSource::Suppressed {
                 kind,
                 amplitude,
@@ -131,6 +176,7 @@ mod tests {
             TestSignal::SuppressedCarrier,
             TestSignal::UpperSideband,
             TestSignal::LowerSideband,
+            TestSignal::Vestigial,
         ] {
             let mut src = ToneSource::new(kind, 0.1, 0.5, 1000.0, 12_000.0, 96_000.0).unwrap();
             let mut x = vec![Complex32::default(); 9600];

@@ -80,5 +80,40 @@ pub fn summary_lines(result: &SweepResult) -> Vec<String> {
             lines.push(format!("  slope over channel SNR {span}: {s:.2} dB/dB"));
         }
     }
+    lines.extend(paired_lines(result));
+    lines
+}
+
+/// Under fading or impulses: every detector fed the same test signal as the first one,
+/// against it trial by trial (the same channel realisation in each trial), at the highest
+/// input point, with the 95 % confidence interval over the trials.
+pub fn paired_lines(result: &SweepResult) -> Vec<String> {
+    let spec = &result.spec;
+    let Some(first) = spec.detectors.first() else {
+        return Vec::new();
+    };
+    if spec.trial.channel.is_none() || spec.trials < 2 {
+        return Vec::new();
+    }
+    let top = (0..spec.input_db.len())
+        .max_by(|&a, &b| spec.input_db[a].total_cmp(&spec.input_db[b]))
+        .unwrap_or(0);
+    let mut lines = vec![format!("channel: {}", spec.trial.channel)];
+    for other in spec.detectors.iter().skip(1) {
+        if other.test_signal().ok() != first.test_signal().ok() {
+            continue;
+        }
+        if let Some(diff) = result.paired_difference(first, other) {
+            let d = diff[top];
+            lines.push(format!(
+                "  {other} − {first} at {} {:.1} dB: {:+.2} dB, 95 % CI ±{:.2} dB ({} paired trials)",
+                spec.axis.name(),
+                d.input_db,
+                d.mean_db,
+                d.half_width_db,
+                d.trials
+            ));
+        }
+    }
     lines
 }

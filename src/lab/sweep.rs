@@ -3,11 +3,9 @@
 
 use super::detector::Detector;
 use super::theory::channel_snr_over_cnr_db;
-#[cfg(feature = "lab")]
 use super::theory::{db, from_db};
 use super::trial::TrialSettings;
-#[cfg(feature = "lab")]
-use super::trial::{run_trial, trial_seed};
+use super::trial::{run_trial_in_channel, trial_seed};
 use crate::{Error, Result};
 #[cfg(feature = "lab")]
 use rayon::prelude::*;
@@ -122,7 +120,19 @@ impl SweepSpec {
                 return Err(Error::parameter(
                     "axis",
                     "cnr",
-                    format!("{d} has no carrier; use --axis snr"),
+                    format!("{d} is not measured with full-carrier AM; use --axis snr"),
+                ));
+            }
+            if *d == Detector::Receiver(crate::demod::Mode::Vsb)
+                && self.trial.tone_hz <= crate::demod::vsb::DEFAULT_VESTIGE_HZ
+            {
+                return Err(Error::parameter(
+                    "tone_hz",
+                    self.trial.tone_hz,
+                    format!(
+                        "vsb is measured with its tone above the vestige ({} Hz)",
+                        crate::demod::vsb::DEFAULT_VESTIGE_HZ
+                    ),
                 ));
             }
             d.build(&self.trial.receiver_config())?;
@@ -259,6 +269,43 @@ pub struct SweepResult {
     pub spec: SweepSpec,
     /// One curve per detector, in the spec's order.
     pub curves: Vec<Curve>,
+    /// Every trial's output SNR in dB, in job order (detector, then point, then trial: see
+    /// [`SweepSpec::job`]).
+    pub trial_db: Vec<f64>,
+}
+
+/// The paired difference of two detectors at one point: the mean over the trials of
+/// (b − a) in dB, trial by trial, with its 95 % confidence interval.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PairedDifference {
+    /// The input value, dB.
+    pub input_db: f64,
+    /// Mean of the per-trial differences, dB.
+    pub mean_db: f64,
+    /// Half-width of the 95 % confidence interval of the mean (Student's t with n − 1 degrees
+    /// of freedom times the standard error), dB; NaN for one trial.
+    pub half_width_db: f64,
+    /// Trials paired.
+    pub trials: usize,
+}
+
+/// The 97.5 % quantile of Student's t with `dof` degrees of freedom (the two-sided 95 %
+/// factor). Values from the standard table (any statistics text, e.g. Fisher and Yates'
+/// tables; quoted from memory), the normal 1.960 beyond 120.
+pub fn student_t_975(dof: usize) -> f64 {
+    const TABLE: [f64; 30] = [
+        12.706, 4.303, 3.182, 2.776, 2.571, 2.447, 2.365, 2.306, 2.262, 2.228, 2.201, 2.179, 2.160,
+        2.145, 2.131, 2.120, 2.110, 2.101, 2.093, 2.086, 2.080, 2.074, 2.069, 2.064, 2.060, 2.056,
+        2.052, 2.048, 2.045, 2.042,
+    ];
+    match dof {
+        0 => f64::NAN,
+        1..=30 => TABLE[dof - 1],
+        31..=40 => 2.021,
+        41..=60 => 2.000,
+        61..=120 => 1.980,
+        _ => 1.960,
+    }
 }
 
 impl SweepResult {
@@ -271,6 +318,122 @@ impl SweepResult {
     /// The first curve of `detector`.
     pub fn curve(&self, detector: &Detector) -> Option<&Curve> {
         self.curves.iter().find(|c| &c.detector == detector)
+    }
+
+    /// The output SNRs (dB) of the trials of detector number `d` at point `p`.
+    pub fn trials_at(&self, d: usize, p: usize) -> &[f64] {
+        let n = self.spec.trials;
+        let at = (d * self.spec.input_db.len() + p) * n;
+        self.trial_db.get(at..at + n).unwrap_or(&[])
+    }
+
+    /// Per point, detector `b` minus detector `a` trial by trial (dB). Trial t of both had the
+    /// same fading and impulses when both are fed the same test signal (the channel is seeded
+    /// per point and trial, not per detector), so the difference is paired and the channel's
+    /// own spread cancels. `None` if either detector is not in the sweep.
+    pub fn paired_difference(&self, a: &Detector, b: &Detector) -> Option<Vec<PairedDifference>> {
+        let ia = self.spec.detectors.iter().position(|d| d == a)?;
+        let ib = self.spec.detectors.iter().position(|d| d == b)?;
+        Some(
+            (0..self.spec.input_db.len())
+                .map(|p| {
+                    let diffs: Vec<f64> = self
+                        .trials_at(ib, p)
+                        .iter()
+                        .zip(self.trials_at(ia, p))
+                        .map(|(y, x)| y - x)
+                        .collect();
+                    let n = diffs.len();
+                    let mean = diffs.iter().sum::<f64>() / n as f64;
+                    let var =
+                        diffs.iter().map(|d| (d - mean).powi(2)).sum::<f64>() / (n as f64 - 1.0);
+                    PairedDifference {
+                        input_db: self.spec.input_db[p],
+                        mean_db: mean,
+                        half_width_db: student_t_975(n.saturating_sub(1)) * (var / n as f64).sqrt(),
+                        trials: n,
+                    }
+                })
+                .collect(),
+        )
+    }
+}
+
+/// Which slice of a sweep's trials to run: the `index`-th (1-based) of `count` disjoint
+/// slices. Job j (see [`SweepSpec::job`]) belongs to slice (j mod count) + 1, so every
+/// slice holds a share of every detector and point.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Shard {
+    /// Which slice, 1 ..= `count`.
+    pub index: usize,
+    /// How many slices.
+    pub count: usize,
+}
+
+impl Shard {
+    /// The whole sweep: slice 1 of 1.
+    pub const WHOLE: Shard = Shard { index: 1, count: 1 };
+
+    /// True if job `job` is in this slice.
+    pub fn contains(&self, job: usize) -> bool {
+        job % self.count == self.index - 1
+    }
+}
+
+impl std::str::FromStr for Shard {
+    type Err = Error;
+
+    /// `K/N` with 1 ≤ K ≤ N ≤ 1 000 000.
+    fn from_str(s: &str) -> Result<Self> {
+        let bad = || Error::parameter("shard", s, "must be K/N with 1 ≤ K ≤ N, e.g. 3/16");
+        let (k, n) = s.trim().split_once('/').ok_or_else(bad)?;
+        let index: usize = k.trim().parse().map_err(|_| bad())?;
+        let count: usize = n.trim().parse().map_err(|_| bad())?;
+        if index == 0 || index > count || count > 1_000_000 {
+            return Err(bad());
+        }
+        Ok(Shard { index, count })
+    }
+}
+
+impl std::fmt::Display for Shard {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{}/{}", self.index, self.count)
+    }
+}
+
+impl SweepSpec {
+    /// (detector index, point index, trial index) of job `job`, the order of
+    /// [`SweepResult::trial_db`].
+    pub fn job(&self, job: usize) -> (usize, usize, usize) {
+        let per_detector = self.input_db.len() * self.trials;
+        (
+            job / per_detector,
+            (job / self.trials) % self.input_db.len(),
+            job % self.trials,
+        )
+    }
+
+    /// A fingerprint of everything that decides the trials' results (FNV-1a of the spec's
+    /// debug text, which prints every number exactly): two runs with the same fingerprint ran
+    /// the same trials.
+    pub fn fingerprint(&self) -> u64 {
+        format!("{self:?}")
+            .bytes()
+            .fold(0xcbf2_9ce4_8422_2325u64, |h, b| {
+                (h ^ u64::from(b)).wrapping_mul(0x0100_0000_01b3)
+            })
+    }
+
+    /// Runs job `job`: its noise from [`trial_seed`] over (seed, detector name, point,
+    /// trial), its fading and impulses from (seed, `"channel"`, point, trial).
+    pub fn run_job(&self, job: usize) -> Result<f64> {
+        let (d, p, t) = self.job(job);
+        let detector = &self.detectors[d];
+        let noise_seed = trial_seed(self.seed, &detector.name(), p, t);
+        let channel_seed = trial_seed(self.seed, "channel", p, t);
+        let snr = self.channel_snr_db(self.input_db[p]);
+        run_trial_in_channel(detector, &self.trial, snr, noise_seed, channel_seed)
     }
 }
 
@@ -294,27 +457,45 @@ pub fn run_sweep<F>(spec: &SweepSpec, progress: F) -> Result<SweepResult>
 where
     F: Fn(Progress) + Sync,
 {
+    let outputs = run_shard(spec, Shard::WHOLE, progress)?;
+    Ok(assemble(
+        spec,
+        outputs.into_iter().map(|(_, v)| v).collect(),
+    ))
+}
+
+/// Runs the jobs of one slice of `spec` in parallel, returning (job, output SNR in dB) in
+/// job order; `progress` counts the slice's trials. The same job gives the same number
+/// whichever slice, thread or machine runs it.
+#[cfg(feature = "lab")]
+pub fn run_shard<F>(spec: &SweepSpec, shard: Shard, progress: F) -> Result<Vec<(usize, f64)>>
+where
+    F: Fn(Progress) + Sync,
+{
     spec.validate()?;
-    let total = spec.total_trials();
-    let done = AtomicUsize::new(0);
-    let jobs: Vec<(usize, usize, usize)> = (0..spec.detectors.len())
-        .flat_map(|d| {
-            (0..spec.input_db.len()).flat_map(move |p| (0..spec.trials).map(move |t| (d, p, t)))
-        })
+    let jobs: Vec<usize> = (0..spec.total_trials())
+        .filter(|&j| shard.contains(j))
         .collect();
+    let total = jobs.len();
+    let done = AtomicUsize::new(0);
     let outputs: Vec<Result<f64>> = jobs
         .par_iter()
-        .map(|&(d, p, t)| {
-            let detector = &spec.detectors[d];
-            let seed = trial_seed(spec.seed, &detector.name(), p, t);
-            let snr = spec.channel_snr_db(spec.input_db[p]);
-            let out = run_trial(detector, &spec.trial, snr, seed);
+        .map(|&job| {
+            let out = spec.run_job(job);
             let done = done.fetch_add(1, Ordering::Relaxed) + 1;
             progress(Progress { done, total });
             out
         })
         .collect();
-    let outputs: Vec<f64> = outputs.into_iter().collect::<Result<_>>()?;
+    jobs.into_iter()
+        .zip(outputs)
+        .map(|(j, out)| out.map(|v| (j, v)))
+        .collect()
+}
+
+/// Averages every job's output (`outputs[j]` for job j, all of them) into the sweep's
+/// curves: the same numbers in the same order give the same result bit for bit.
+pub fn assemble(spec: &SweepSpec, outputs: Vec<f64>) -> SweepResult {
     let curves = spec
         .detectors
         .iter()
@@ -329,14 +510,14 @@ where
                 .collect(),
         })
         .collect();
-    Ok(SweepResult {
+    SweepResult {
         spec: spec.clone(),
         curves,
-    })
+        trial_db: outputs,
+    }
 }
 
 /// Averages one point's trials.
-#[cfg(feature = "lab")]
 fn point(spec: &SweepSpec, detector: &Detector, p: usize, trials: &[f64]) -> SweepPoint {
     // Mean of the linear power ratios; its standard error carried to dB by the delta method,
     // d(10·log10 r) = (10/ln 10)·dr/r.
@@ -354,7 +535,7 @@ fn point(spec: &SweepSpec, detector: &Detector, p: usize, trials: &[f64]) -> Swe
             .then(|| snr - channel_snr_over_cnr_db(mu)),
         output_snr_db: db(mean),
         stderr_db: 10.0 / std::f64::consts::LN_10 * (var / n).sqrt() / mean,
-        theory_db: snr + db(detector.figure_of_merit(mu)),
+        theory_db: snr + db(detector.figure_of_merit(mu, spec.trial.bandwidth_hz)),
         trials: trials.len(),
     }
 }

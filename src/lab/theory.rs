@@ -17,6 +17,25 @@ pub fn full_carrier_figure_of_merit(mu: f64) -> f64 {
 /// noise in DSB-SC and SSB receivers).
 pub const SUPPRESSED_CARRIER_FIGURE_OF_MERIT: f64 = 1.0;
 
+/// Figure of merit of synchronous detection of one sideband of full-carrier tone AM of index
+/// μ: the kept line μA_c/2 is detected with the noise of one sideband (N0·W, half of it in
+/// the real part), so output SNR = μ²A_c²/(4N0W) over channel SNR A_c²(1+μ²/2)/(N0W) gives
+/// μ²/(2(2+μ²)): 3 dB below both sidebands, whose lines add coherently while their noises add
+/// in power (derived in Haykin's convention, Communication Systems, ch. 2).
+pub fn one_sideband_figure_of_merit(mu: f64) -> f64 {
+    full_carrier_figure_of_merit(mu) / 2.0
+}
+
+/// Figure of merit of the vestigial-sideband receiver (Nyquist-slope filter H = ½(1 + S),
+/// audio 2·Re(H∗x), see [`crate::demod::vsb`]) for a carrier A_c and one line μA_c/2 above
+/// the vestige f_v: the audio tone has power μ²A_c²/2; the noise in (0, W] is
+/// 2N0·∫(|H(f)|² + |H(−f)|²)df = 2N0(W − f_v/3) (the slope gives (1 + f²/f_v²)/2 inside the
+/// vestige, 1 above); channel SNR = A_c²(1 + μ²/4)/(N0W). So FoM = μ²/(4 + μ²)·W/(W − f_v/3)
+/// (derived here in Haykin's convention, Communication Systems, ch. 2, VSB).
+pub fn vestigial_figure_of_merit(mu: f64, bandwidth_hz: f64, vestige_hz: f64) -> f64 {
+    mu * mu / (4.0 + mu * mu) * bandwidth_hz / (bandwidth_hz - vestige_hz / 3.0)
+}
+
 /// Power ratio to decibels.
 pub fn db(ratio: f64) -> f64 {
     10.0 * ratio.log10()
