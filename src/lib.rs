@@ -33,6 +33,7 @@
 //!   DC blocker.
 //! - [`block`]: the block contract and its shared test.
 //! - [`band`]: the whole band at once: what is on it (`amrx scan`).
+//! - [`channelize`]: many channels from one stream (the polyphase FFT channelizer).
 //! - [`demod`]: the receiver assembly, the mode table and every mode's detector.
 //! - [`sync`]: carrier recovery loops.
 //! - [`io`]: SigMF, IQ WAV and raw inputs; WAV and raw audio outputs.
@@ -76,6 +77,7 @@
 pub mod band;
 pub mod block;
 pub mod channel;
+pub mod channelize;
 pub mod demod;
 pub mod dsp;
 pub mod error;
