@@ -30,5 +30,10 @@ fn bench(c: &mut Criterion) {
     group.finish();
 }
 
-criterion_group!(benches, bench);
+criterion_group! {
+    name = benches;
+    // No plots: plotters here has no system fonts (DEPENDENCIES.md).
+    config = Criterion::default().without_plots();
+    targets = bench
+}
 criterion_main!(benches);

@@ -26,11 +26,14 @@ pub struct PolyphaseChannelizer {
     channels: usize,
     decimation: usize,
     taps: Vec<f32>,
-    /// Prototype length, padded with zeros to a multiple of M.
-    len: usize,
-    /// Twice the history, written at `at` and `at + len`.
-    history: Vec<Complex32>,
-    at: usize,
+    /// Prototype taps by phase, reversed: `phase_taps[p·R + j] = h[(R − 1 − j)·M + p]`.
+    phase_taps: Vec<f32>,
+    /// Taps per phase R = len / M.
+    per_phase: usize,
+    /// One ring per input phase q (inputs whose index ≡ q mod M), each 2R long and written
+    /// twice, so its newest R samples are contiguous, oldest first, from `ring_at[q] + 1`.
+    rings: Vec<Complex32>,
+    ring_at: Vec<usize>,
     /// Inputs seen (mod M·D is enough; kept as the input index modulo the phase period).
     phase: usize,
     /// Inputs until the next frame.
@@ -136,13 +139,21 @@ impl PolyphaseChannelizer {
                 Complex32::new(a.cos() as f32, a.sin() as f32)
             })
             .collect();
+        let per_phase = len / channels;
+        let mut phase_taps = vec![0.0f32; len];
+        for p in 0..channels {
+            for j in 0..per_phase {
+                phase_taps[p * per_phase + j] = padded[(per_phase - 1 - j) * channels + p];
+            }
+        }
         Ok(PolyphaseChannelizer {
             channels,
             decimation,
             taps: padded,
-            len,
-            history: vec![Complex32::default(); 2 * len],
-            at: 0,
+            phase_taps,
+            per_phase,
+            rings: vec![Complex32::default(); 2 * len],
+            ring_at: vec![0; channels],
             phase: 0,
             until_frame: 0,
             sums: vec![Complex32::default(); channels],
@@ -166,15 +177,14 @@ impl PolyphaseChannelizer {
     /// (mod M).
     fn frame(&mut self, out: &mut [Complex32]) {
         let m = self.channels;
-        let newest = self.at + self.len; // history[newest] = x[t]
+        let r = self.per_phase;
         for p in 0..m {
-            let mut acc = Complex32::default();
-            let mut r = 0;
-            while r < self.len {
-                acc += self.history[newest - r - p] * self.taps[r + p];
-                r += m;
-            }
-            self.sums[p] = acc;
+            // Inputs t − p − jM live in ring q = (t − p) mod M, newest last.
+            let q = (self.phase + m - p) % m;
+            let start = q * 2 * r + self.ring_at[q] + 1;
+            let window = &self.rings[start..start + r];
+            let taps = &self.phase_taps[p * r..(p + 1) * r];
+            self.sums[p] = dot(window, taps);
         }
         self.fft
             .process_with_scratch(&mut self.sums, &mut self.scratch);
@@ -182,6 +192,27 @@ impl PolyphaseChannelizer {
             *o = v * self.twiddle[(k * self.phase) % m];
         }
     }
+}
+
+/// Σ x\[j\]·h\[j\] with four independent accumulators (so the compiler can vectorise it).
+#[inline]
+fn dot(x: &[Complex32], h: &[f32]) -> Complex32 {
+    let mut re = [0.0f32; 4];
+    let mut im = [0.0f32; 4];
+    let xs = x.chunks_exact(4);
+    let hs = h.chunks_exact(4);
+    let (xr, hr) = (xs.remainder(), hs.remainder());
+    for (xc, hc) in xs.zip(hs) {
+        for i in 0..4 {
+            re[i] += xc[i].re * hc[i];
+            im[i] += xc[i].im * hc[i];
+        }
+    }
+    let mut acc = Complex32::new(re.iter().sum(), im.iter().sum());
+    for (a, b) in xr.iter().zip(hr) {
+        acc += a * b;
+    }
+    acc
 }
 
 impl Block for PolyphaseChannelizer {
@@ -200,9 +231,12 @@ impl Block for PolyphaseChannelizer {
             } else {
                 Complex32::default()
             };
-            self.at = (self.at + 1) % self.len;
-            self.history[self.at] = x;
-            self.history[self.at + self.len] = x;
+            let q = self.phase;
+            let r = self.per_phase;
+            let at = (self.ring_at[q] + 1) % r;
+            self.ring_at[q] = at;
+            self.rings[q * 2 * r + at] = x;
+            self.rings[q * 2 * r + at + r] = x;
             if self.until_frame == 0 {
                 let (head, _) = output[produced..].split_at_mut(m);
                 self.frame(head);
@@ -235,10 +269,10 @@ impl Block for PolyphaseChannelizer {
     }
 
     fn reset(&mut self) {
-        self.history
+        self.rings
             .iter_mut()
             .for_each(|h| *h = Complex32::default());
-        self.at = 0;
+        self.ring_at.iter_mut().for_each(|a| *a = 0);
         self.phase = 0;
         self.until_frame = 0;
     }
