@@ -1,7 +1,7 @@
 //! Watching a whole band: what is on it (`amrx scan`).
 //!
 //! One pass over the recording ([`BandRecorder`]) gathers the Welch-averaged spectrum, the
-//! spectrum of the squared signal and a waterfall; [`detect`] finds the emissions over a
+//! spectrum of the squared signal and a waterfall; [`detect()`] finds the emissions over a
 //! CFAR threshold, times them from the waterfall, classes them and measures level, CNR and
 //! 99 % occupied bandwidth; [`run_scan`] wires it to an input and [`ScanOutcome`] writes the
 //! JSON, the table and the SigMF annotations. The pictures (`write_spectrum_png`,
