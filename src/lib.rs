@@ -32,6 +32,8 @@
 //! - [`dsp`]: NCO, mixer, Kaiser FIR design, FIR, polyphase decimation, rational resampling,
 //!   DC blocker.
 //! - [`block`]: the block contract and its shared test.
+//! - [`band`]: the whole band at once: what is on it (`amrx scan`).
+//! - [`channelize`]: many channels from one stream (the polyphase FFT channelizer).
 //! - [`demod`]: the receiver assembly, the mode table and every mode's detector.
 //! - [`sync`]: carrier recovery loops.
 //! - [`io`]: SigMF, IQ WAV and raw inputs; WAV and raw audio outputs.
@@ -72,8 +74,10 @@
 //! opt-level = 3
 //! ```
 
+pub mod band;
 pub mod block;
 pub mod channel;
+pub mod channelize;
 pub mod demod;
 pub mod dsp;
 pub mod error;

@@ -1,6 +1,7 @@
 //! `amrx`: the command-line receiver. Argument parsing and wiring only; the work is in the
 //! library.
 
+use amrx::band::{self, run_scan, ScanRequest};
 use amrx::demod::{
     AudioLevel, LoopSettings, Mode, Notch, ReceiverOptions, Sideband, SsbMethod, MODES,
 };
@@ -37,6 +38,8 @@ enum Command {
     Demod(DemodArgs),
     /// Measure a full-carrier station over time: carrier, CNR, modulation peaks, events.
     Measure(MeasureArgs),
+    /// Find every emission on the band: frequency, class, level, CNR, 99 % bandwidth, times.
+    Scan(ScanArgs),
     /// Show what a recording holds.
     Info {
         /// The recording (SigMF, IQ WAV, raw file or - for standard input).
@@ -107,6 +110,32 @@ struct SpanArgs {
     /// Seconds to process (default: to the end).
     #[arg(long, allow_negative_numbers = true)]
     duration: Option<f64>,
+}
+
+#[derive(Args, Debug)]
+struct ScanArgs {
+    /// The IQ input (NAME.sigmf-meta or NAME.sigmf-data, an IQ WAV, a raw file, or -).
+    input: PathBuf,
+    /// Write what was found as JSON.
+    #[arg(long)]
+    json: Option<PathBuf>,
+    /// Draw the averaged spectrum with the floor and the emissions found (PNG).
+    #[arg(long)]
+    png: Option<PathBuf>,
+    /// Draw the waterfall: time down, frequency across (PNG).
+    #[arg(long)]
+    waterfall: Option<PathBuf>,
+    /// Write a copy of the input's SigMF metadata with one annotation per emission.
+    #[arg(long)]
+    annotate: Option<PathBuf>,
+    /// Least CNR reported, dB (in each emission's occupied bandwidth).
+    #[arg(long, allow_negative_numbers = true, default_value_t = amrx::band::scan::DEFAULT_MIN_CNR_DB)]
+    min_cnr: f64,
+    /// No progress bar.
+    #[arg(long)]
+    quiet: bool,
+    #[command(flatten)]
+    input_options: InputArgs,
 }
 
 #[derive(Args, Debug)]
@@ -361,6 +390,7 @@ fn main() -> ExitCode {
     let outcome = match cli.command {
         Command::Demod(args) => demod(args),
         Command::Measure(args) => measure(&args).map(|()| 0),
+        Command::Scan(args) => scan(&args).map(|()| 0),
         Command::Info {
             input,
             input_options,
@@ -500,6 +530,7 @@ fn flag_for(parameter: &str) -> Option<&'static str> {
         "centre_hz" => "--centre",
         "limit_positive" => "--limit-positive",
         "limit_negative" => "--limit-negative",
+        "min_cnr_db" => "--min-cnr",
         _ => return None,
     })
 }
@@ -635,6 +666,65 @@ fn measure(args: &MeasureArgs) -> Result<(), String> {
     }
     let mut text = String::new();
     for line in timeline.verdict_lines(limits) {
+        outln!(text, "{line}");
+    }
+    emit(&text)
+}
+
+fn scan(args: &ScanArgs) -> Result<(), String> {
+    let outputs: Vec<&Path> = [&args.json, &args.png, &args.waterfall, &args.annotate]
+        .into_iter()
+        .flatten()
+        .map(PathBuf::as_path)
+        .collect();
+    check_outputs(&args.input, &outputs).map_err(|e| with_input(&args.input, e))?;
+    let request = ScanRequest {
+        input: args.input.clone(),
+        input_options: args.input_options.options(),
+        min_cnr_db: args.min_cnr,
+    };
+    let bar = progress_bar(args.quiet, "samples");
+    let outcome = run_scan(&request, &|n| bar.set_position(n));
+    bar.finish_and_clear();
+    let outcome = outcome.map_err(|e| with_input(&args.input, e))?;
+    for warning in &outcome.warnings {
+        eprintln!("amrx: warning: {}: {warning}", args.input.display());
+    }
+    let words = |e: Error| with_input(&args.input, e);
+    if let Some(path) = &args.json {
+        let text = outcome.json().map_err(words)?;
+        amrx::io::output::write_file(path, &[], &text).map_err(|e| e.to_string())?;
+    }
+    let name = args.input.file_name().map_or_else(
+        || args.input.display().to_string(),
+        |n| n.to_string_lossy().into_owned(),
+    );
+    let centre = outcome.info.centre_frequency;
+    if let Some(path) = &args.png {
+        let title = format!(
+            "{name}: averaged spectrum, {:.1} Hz bins, {} frames, {} emission(s)",
+            outcome.record.bin_hz(),
+            outcome.record.frames,
+            outcome.report.emissions.len()
+        );
+        band::write_spectrum_png(&outcome.record, &outcome.detection, centre, &title, path)
+            .map_err(|e| e.to_string())?;
+    }
+    if let Some(path) = &args.waterfall {
+        let title = format!(
+            "{name}: waterfall, colour = power density (dBFS/Hz), {} rows; outlines = emissions found",
+            outcome.record.row_count()
+        );
+        band::write_waterfall_png(&outcome.record, &outcome.detection, centre, &title, path)
+            .map_err(|e| e.to_string())?;
+    }
+    if let Some(path) = &args.annotate {
+        outcome
+            .write_annotated(&args.input, path)
+            .map_err(|e| e.to_string())?;
+    }
+    let mut text = String::new();
+    for line in outcome.table_lines() {
         outln!(text, "{line}");
     }
     emit(&text)
