@@ -23,6 +23,12 @@ pub struct InputOptions {
 /// exists and `path` itself is not a file. For SigMF and WAV, `options.rate` overrides the
 /// file's rate (noted in the warnings) and `options.format`, if given, must match the file.
 pub fn open_input(path: &Path, options: &InputOptions) -> Result<Box<dyn IqSource>> {
+    if path.to_str().is_some_and(|p| p.starts_with("sound:")) && !path.exists() {
+        return Err(Error::file(
+            path,
+            "a sound-card input is read by `amrx demod` (built with --features sound)",
+        ));
+    }
     if path != Path::new("-") {
         if sigmf_base(path).is_some() || has_extension(path, "sigmf") {
             let source = SigmfSource::open(path, options.rate, options.channel)?;

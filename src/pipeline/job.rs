@@ -1,5 +1,6 @@
 //! The receive job: open the input, build the mode's receiver, stream to the audio sink, report.
 
+use super::live::{sound_input_name, Controlled, LiveControl, SoundSession, TeeSink};
 use super::report::Report;
 use super::runtime::{run_stream, RuntimeConfig};
 use crate::demod::{build_receiver, Mode, Receiver, ReceiverConfig, ReceiverOptions};
@@ -34,6 +35,8 @@ pub enum AudioTarget {
     },
     /// Raw little-endian f32 on standard output.
     Stdout,
+    /// No file: the audio only plays (with [`DemodRequest::play`]).
+    Nothing,
 }
 
 /// Everything a `demod` run needs.
@@ -53,6 +56,9 @@ pub struct DemodRequest {
     pub audio: AudioTarget,
     /// Where to write the JSON report, if anywhere.
     pub report: Option<PathBuf>,
+    /// Also play the audio on this sound-card output (`default` for the default), paced to
+    /// the card's clock; needs the `sound` feature.
+    pub play: Option<String>,
 }
 
 impl DemodRequest {
@@ -66,6 +72,7 @@ impl DemodRequest {
             options: ReceiverOptions::default(),
             audio,
             report: None,
+            play: None,
         }
     }
 }
@@ -92,7 +99,27 @@ pub fn run_demod_until(
     progress: &(dyn Fn(u64) + Sync),
     stop: &AtomicBool,
 ) -> Result<Report> {
-    let mut source = open_input(&request.input, &request.input_options)?;
+    run_demod_live(request, progress, stop, &LiveControl::default())
+}
+
+/// As [`run_demod_until`], with live controls: `control` carries retune requests in and the
+/// level, CNR and tuning out while the run goes on (see [`LiveControl`]).
+///
+/// An input named `sound:NAME` captures IQ from a sound card (feature `sound`), and
+/// `request.play` plays the audio on one; a sound card in the run makes the report carry
+/// `underruns`, `overruns`, `stream_errors` and, once measured, `clock_ppm`.
+pub fn run_demod_live(
+    request: &DemodRequest,
+    progress: &(dyn Fn(u64) + Sync),
+    stop: &AtomicBool,
+    control: &LiveControl,
+) -> Result<Report> {
+    let mut sound = SoundSession::default();
+    let live_input = sound_input_name(&request.input);
+    let mut source = match live_input {
+        Some(name) => sound.open_source(name, request.input_options.rate)?,
+        None => open_input(&request.input, &request.input_options)?,
+    };
     let input_files = input_files(&request.input, &source.info().path);
     let inputs: Vec<&Path> = input_files.iter().map(PathBuf::as_path).collect();
     if let Some(report) = &request.report {
@@ -109,6 +136,27 @@ pub fn run_demod_until(
     };
     let mut receiver = build_receiver(request.mode, &config)?;
     let mut sink = open_sink(&request.audio, receiver.as_ref(), &inputs)?;
+    if let Some(device) = &request.play {
+        let player = sound.open_sink(
+            device,
+            receiver.audio_rate(),
+            receiver.audio_channels().max(1),
+        )?;
+        sink = match request.audio {
+            AudioTarget::Nothing => player,
+            _ => Box::new(TeeSink(vec![sink, player])),
+        };
+    }
+    let runtime = if live_input.is_some() || request.play.is_some() {
+        // Pieces of 20 ms, so that a retune or the end of a live run is heard at once.
+        RuntimeConfig {
+            chunk: ((source.info().sample_rate * 0.02) as usize).clamp(256, 1 << 16),
+            depth: 4,
+        }
+    } else {
+        RuntimeConfig::default()
+    };
+    let input_rate = source.info().sample_rate;
     let channels = receiver.audio_channels().max(1);
     let mut aligned = Alignment::new(receiver.as_ref());
     let input_total = AtomicU64::new(u64::MAX);
@@ -129,9 +177,9 @@ pub fn run_demod_until(
             }
             Ok(n)
         },
-        receiver.as_mut(),
+        &mut Controlled::new(receiver.as_mut(), control, input_rate),
         |audio| sink.write(aligned.keep(audio, input_total.load(Ordering::Acquire))),
-        RuntimeConfig::default(),
+        runtime,
     )?;
     sink.finish()?;
     let mut report = make_report(
@@ -142,6 +190,25 @@ pub fn run_demod_until(
         totals.samples_in,
         aligned.written * channels as u64,
     );
+    if let Some(figures) = sound.figures() {
+        report.underruns = Some(figures.underruns);
+        report.overruns = Some(figures.overruns);
+        report.stream_errors = Some(figures.stream_errors);
+        report.clock_ppm = figures.clock_ppm;
+        report.latency_s = figures.latency_s;
+        if figures.underruns > 0 {
+            report.warnings.push(format!(
+                "the sound card ran dry {} times (underruns): the machine was too busy",
+                figures.underruns
+            ));
+        }
+        if figures.overruns > 0 {
+            report.warnings.push(format!(
+                "captured samples were dropped {} times (overruns): the receiver fell behind",
+                figures.overruns
+            ));
+        }
+    }
     if interrupted {
         report.warnings.insert(
             0,
@@ -244,6 +311,7 @@ fn open_sink(
             )?)
         }
         AudioTarget::Stdout => Box::new(RawAudioSink::try_stdout()?),
+        AudioTarget::Nothing => Box::new(TeeSink(Vec::new())),
     })
 }
 
@@ -280,6 +348,11 @@ fn make_report(
         modulation_depth: measured.modulation_depth,
         warnings,
         blanked_samples: measured.blanked_samples,
+        underruns: None,
+        overruns: None,
+        stream_errors: None,
+        clock_ppm: None,
+        latency_s: None,
     }
 }
 
