@@ -141,6 +141,10 @@ struct DemodArgs {
     /// Sound-card output for --play (names from `amrx devices`; default: the system's).
     #[arg(long, requires = "play")]
     device: Option<String>,
+    /// Sound-card output latency in milliseconds for --play (default 30); raise it (e.g. 600)
+    /// if a busy machine makes the sound drop out.
+    #[arg(long, requires = "play", allow_negative_numbers = true)]
+    latency: Option<f64>,
     /// Write 16-bit PCM instead of 32-bit float.
     #[arg(long)]
     pcm16: bool,
@@ -420,6 +424,7 @@ fn flag_for(parameter: &str) -> Option<&'static str> {
         "duration_s" => "--duration",
         "limit_positive" => "--limit-positive",
         "limit_negative" => "--limit-negative",
+        "latency_s" => "--latency (in ms)",
         _ => return None,
     })
 }
@@ -474,6 +479,7 @@ fn demod(args: DemodArgs) -> Result<u8, String> {
         play: args
             .play
             .then(|| args.device.clone().unwrap_or_else(|| "default".to_string())),
+        play_latency_s: args.latency.map(|ms| ms / 1000.0),
     };
     let live_input = args.input.to_str().is_some_and(|p| p.starts_with("sound:"));
     let control = Arc::new(LiveControl::default());

@@ -251,15 +251,16 @@ fn ssb_from_the_capture_device() {
     assert_eq!(r["overruns"], 0);
 }
 
-/// 30 s of playback with the other core busy: the underruns the ring counted, the gaps in
-/// the monitor and the clock error are printed for the issue's closing note; the run stays
-/// paced and the report carries the figures.
+/// 30 s of playback with the other core busy, at the default latency and at 600 ms: the
+/// underruns the ring counted, the gaps in the monitor and the clock error are printed for
+/// the issue's closing note. Both runs stay paced; at 600 ms (a 200 ms device buffer, the
+/// size LIVE-AUDIO-TESTING.md measured clean under load) nothing drops out and the clock
+/// error is small.
 #[test]
 fn thirty_seconds_under_load() {
     server_is_up();
     let dir = scratch_dir("live-load");
     let meta = am_recording(&dir, 30.0);
-    let json = dir.join("r.json");
     let busy = Arc::new(AtomicBool::new(true));
     let spinner = {
         let busy = Arc::clone(&busy);
@@ -270,41 +271,50 @@ fn thirty_seconds_under_load() {
             }
         })
     };
-    let monitor = Monitor::start();
-    let start = Instant::now();
-    let out = Command::new(env!("CARGO_BIN_EXE_amrx"))
-        .args([
-            "demod", &meta, "--mode", "am", "--offset", "20000", "--play",
-        ])
-        .args(["--report", json.to_str().unwrap()])
-        .output()
-        .unwrap();
-    let wall = start.elapsed().as_secs_f64();
-    let (capture, _) = monitor.stop();
+    let mut results = Vec::new();
+    for latency in ["30", "600"] {
+        let json = dir.join(format!("r{latency}.json"));
+        let monitor = Monitor::start();
+        let start = Instant::now();
+        let out = Command::new(env!("CARGO_BIN_EXE_amrx"))
+            .args([
+                "demod", &meta, "--mode", "am", "--offset", "20000", "--play",
+            ])
+            .args(["--latency", latency, "--report", json.to_str().unwrap()])
+            .output()
+            .unwrap();
+        let wall = start.elapsed().as_secs_f64();
+        let (capture, _) = monitor.stop();
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let tone = played(&capture, 0.01);
+        let cut = (0.3 * RATE) as usize;
+        let gap_count = gaps(&tone[..tone.len().saturating_sub(cut)]);
+        let r = report(&json);
+        println!(
+            "load, --latency {latency} ms: wall {wall:.2} s, {:.2} s of tone, {gap_count} gap \
+             windows of 5 ms in the monitor; report underruns {} stream_errors {} clock_ppm {}",
+            tone.len() as f64 / RATE,
+            r["underruns"],
+            r["stream_errors"],
+            r["clock_ppm"]
+        );
+        results.push((wall, gap_count, r));
+    }
     busy.store(false, Ordering::Relaxed);
     spinner.join().unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let tone = played(&capture, 0.01);
-    let cut = (0.3 * RATE) as usize;
-    let gap_count = gaps(&tone[..tone.len().saturating_sub(cut)]);
-    let sinad = sinad_db(&tone[cut..tone.len() - cut], RATE, 1000.0).unwrap();
-    let r = report(&json);
-    println!(
-        "load: wall {wall:.2} s, {:.2} s of tone, SINAD {sinad:.1} dB, {gap_count} gap windows in \
-         the monitor; report underruns {} stream_errors {} clock_ppm {}",
-        tone.len() as f64 / RATE,
-        r["underruns"],
-        r["stream_errors"],
-        r["clock_ppm"]
-    );
-    assert!((29.8..33.0).contains(&wall), "wall time {wall} s for 30 s");
-    assert!(r["underruns"].is_u64());
-    // Over 30 s the rate meter has converged: a null sink runs on the system clock, so the
-    // error is small (±100 ppm allows for the server's bursty callbacks).
+    // At the default 30 ms a loaded machine may drop out (the figures above are the
+    // measurement); at 600 ms the run must be clean and paced.
+    assert!(results[0].2["underruns"].is_u64());
+    let (wall, gap_count, r) = &results[1];
+    assert!((29.8..31.5).contains(wall), "wall time {wall} s for 30 s");
+    assert_eq!(*gap_count, 0, "gaps at 600 ms latency");
+    assert_eq!(r["underruns"], 0);
+    // A null sink runs on the system clock: the error is the meter's (±100 ppm allows for
+    // the server's bursty callbacks over 29 s).
     let ppm = r["clock_ppm"]
         .as_f64()
         .expect("clock_ppm measured over 30 s");

@@ -59,6 +59,9 @@ pub struct DemodRequest {
     /// Also play the audio on this sound-card output (`default` for the default), paced to
     /// the card's clock; needs the `sound` feature.
     pub play: Option<String>,
+    /// Output latency for `play` in seconds (device buffer plus the ring's target fill);
+    /// `None`: the sink's default (30 ms). Larger values ride out a busy machine.
+    pub play_latency_s: Option<f64>,
 }
 
 impl DemodRequest {
@@ -73,6 +76,7 @@ impl DemodRequest {
             audio,
             report: None,
             play: None,
+            play_latency_s: None,
         }
     }
 }
@@ -141,6 +145,8 @@ pub fn run_demod_live(
             device,
             receiver.audio_rate(),
             receiver.audio_channels().max(1),
+            request.play_latency_s,
+            live_input.is_some(),
         )?;
         sink = match request.audio {
             AudioTarget::Nothing => player,
@@ -196,6 +202,16 @@ pub fn run_demod_live(
         report.stream_errors = Some(figures.stream_errors);
         report.clock_ppm = figures.clock_ppm;
         report.latency_s = figures.latency_s;
+        report.clock_correction_ppm = figures.correction_ppm;
+        if figures
+            .correction_ppm
+            .is_some_and(|c| c.abs() >= 0.999 * crate::pipeline::live::MAX_CORRECTION_PPM)
+        {
+            report.warnings.push(format!(
+                "the sound cards' clocks differ by more than the {} ppm the resampler absorbs",
+                crate::pipeline::live::MAX_CORRECTION_PPM
+            ));
+        }
         if figures.underruns > 0 {
             report.warnings.push(format!(
                 "the sound card ran dry {} times (underruns): the machine was too busy",
@@ -353,6 +369,7 @@ fn make_report(
         stream_errors: None,
         clock_ppm: None,
         latency_s: None,
+        clock_correction_ppm: None,
     }
 }
 

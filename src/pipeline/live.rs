@@ -24,6 +24,9 @@ pub fn sound_input_name(input: &Path) -> Option<&str> {
     (!input.exists()).then_some(if name.is_empty() { "default" } else { name })
 }
 
+/// The largest clock difference absorbed between a sound-card input and output, ppm.
+pub const MAX_CORRECTION_PPM: f64 = 1000.0;
+
 /// Counts and figures of the sound card for the report.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct SoundFigures {
@@ -37,6 +40,8 @@ pub struct SoundFigures {
     pub clock_ppm: Option<f64>,
     /// Output latency in seconds, when playing.
     pub latency_s: Option<f64>,
+    /// Resampling correction applied to follow a live source's clock, ppm.
+    pub correction_ppm: Option<f64>,
 }
 
 /// The sound side of a run: the shared counters (with the feature) or nothing.
@@ -76,18 +81,22 @@ impl SoundSession {
         device: &str,
         rate: f64,
         channels: usize,
+        latency_s: Option<f64>,
+        follow_source_clock: bool,
     ) -> Result<Box<dyn AudioSink>> {
         self.used = true;
         #[cfg(feature = "sound")]
         {
             let mut settings = crate::sound::SoundSinkSettings::new(rate, channels);
             settings.device = device.to_string();
+            settings.latency_s = latency_s;
+            settings.follow_source_clock = follow_source_clock;
             let sink = crate::sound::SoundSink::open(&settings, self.stats.clone())?;
             Ok(Box::new(sink))
         }
         #[cfg(not(feature = "sound"))]
         {
-            let _ = (rate, channels);
+            let _ = (rate, channels, latency_s, follow_source_clock);
             Err(crate::Error::file(
                 format!("sound output '{device}'"),
                 BUILD_WITH_SOUND,
@@ -109,6 +118,7 @@ impl SoundSession {
                 stream_errors: f.stream_errors,
                 clock_ppm: f.clock_ppm,
                 latency_s: f.latency_s,
+                correction_ppm: f.correction_ppm,
             })
         }
         #[cfg(not(feature = "sound"))]

@@ -67,6 +67,10 @@ pub struct Report {
     /// Sound-card output latency in seconds (the ring's target fill plus one device
     /// buffer); `null` without `--play`.
     pub latency_s: Option<f64>,
+    /// The resampling ratio applied at the end to follow a sound-card input's clock with a
+    /// sound-card output, ppm (positive: more samples out than in; within ±1000); `null`
+    /// unless both are sound cards.
+    pub clock_correction_ppm: Option<f64>,
 }
 
 impl Report {

@@ -20,6 +20,7 @@
 
 mod capture;
 mod device;
+mod drift;
 mod playout;
 mod sink;
 mod source;
@@ -27,8 +28,9 @@ mod stats;
 
 pub use capture::{capture_ring, CaptureReader, CaptureTap};
 pub use device::{list_devices, Capability, DeviceSummary};
+pub use drift::{DriftCorrector, MAX_PPM};
 pub use playout::{playout_ring, Playout, PlayoutFeed};
-pub use sink::{SoundSink, SoundSinkSettings};
+pub use sink::{SoundSink, SoundSinkSettings, DEFAULT_LATENCY_S};
 pub use source::SoundSource;
 pub use stats::{LiveFigures, LiveStats, RateMeter};
 

@@ -164,6 +164,15 @@ impl PlayoutFeed {
         self.producer.push_slice(&samples[..take])
     }
 
+    /// Pushes whole frames of `samples` up to the ring's capacity (twice the target fill)
+    /// without waiting; returns the samples taken. For a live source whose rate a
+    /// [`DriftCorrector`](super::DriftCorrector) steers, where waiting would stall the capture.
+    pub fn try_push_all(&mut self, samples: &[f32]) -> usize {
+        let room = self.producer.vacant_len();
+        let take = room.min(samples.len()) / self.channels * self.channels;
+        self.producer.push_slice(&samples[..take])
+    }
+
     /// Pushes all of `samples` (whole frames), waiting for room; fails when the device has
     /// taken nothing for 3 s (a stalled or vanished device).
     pub fn push(&mut self, samples: &[f32]) -> Result<()> {

@@ -1,6 +1,7 @@
 //! [`SoundSink`]: an [`AudioSink`] that plays through a sound card.
 
 use super::device::{device_error, find, pick_config, Direction, QuietAlsa};
+use super::drift::DriftCorrector;
 use super::playout::{playout_ring, Playout, PlayoutFeed};
 use super::stats::LiveStats;
 use crate::io::AudioSink;
@@ -22,13 +23,20 @@ pub struct SoundSinkSettings {
     pub audio_rate: f64,
     /// Channels in the audio written (1, or 2 for ISB).
     pub audio_channels: usize,
-    /// Device buffer (frames per callback); `None`: 10 ms of audio, common practice for
-    /// interactive audio, no source.
-    pub buffer_frames: Option<u32>,
-    /// Target fill of the ring in device buffers; `None`: 2 (one buffer being played, one
-    /// waiting: the least that rides out one late wake-up of the DSP thread).
-    pub ring_buffers: Option<u32>,
+    /// Output latency in seconds: one device buffer plus the ring's target fill of two
+    /// buffers (one being played, one waiting: the least that rides out one late wake-up of
+    /// the DSP thread). `None`: 30 ms (10 ms buffers, common practice for interactive audio,
+    /// no source). A busy machine needs more: 0.6 s gave no gap in 30 s with the other core
+    /// loaded where 30 ms gave a few (measured, tests/live_sound.rs).
+    pub latency_s: Option<f64>,
+    /// The audio comes from a live source on another clock (a sound card's input): resample
+    /// it by a ratio steered to hold the ring at its target fill ([`DriftCorrector`]), instead
+    /// of letting the card pace the writer.
+    pub follow_source_clock: bool,
 }
+
+/// The default output latency, seconds.
+pub const DEFAULT_LATENCY_S: f64 = 0.030;
 
 impl SoundSinkSettings {
     /// The default device at `audio_rate` with `audio_channels` channels.
@@ -37,8 +45,8 @@ impl SoundSinkSettings {
             device: "default".to_string(),
             audio_rate,
             audio_channels,
-            buffer_frames: None,
-            ring_buffers: None,
+            latency_s: None,
+            follow_source_clock: false,
         }
     }
 }
@@ -55,6 +63,10 @@ pub struct SoundSink {
     dev_channels: usize,
     scratch: Vec<f32>,
     label: String,
+    drift: Option<DriftCorrector>,
+    target_frames: usize,
+    latency_s: f64,
+    stats: Arc<LiveStats>,
 }
 
 impl SoundSink {
@@ -77,10 +89,16 @@ impl SoundSink {
             ));
         }
         let rate_hz = rate as u32;
-        let buffer = settings
-            .buffer_frames
-            .unwrap_or(((rate * 0.010).round() as u32).max(32));
-        let ring_buffers = settings.ring_buffers.unwrap_or(2).max(1);
+        let latency = settings.latency_s.unwrap_or(DEFAULT_LATENCY_S);
+        if !(latency.is_finite() && (0.003..=10.0).contains(&latency)) {
+            return Err(Error::parameter(
+                "latency_s",
+                latency,
+                "must be between 0.003 and 10 seconds",
+            ));
+        }
+        let buffer = ((rate * latency / 3.0).round() as u32).max(16);
+        let ring_buffers = 2;
         let device = find(&settings.device, Direction::Output, &label)?;
         let _quiet = QuietAlsa::new();
         let configs = device
@@ -108,9 +126,18 @@ impl SoundSink {
             sample_rate: rate_hz,
             buffer_size: BufferSize::Fixed(buffer),
         };
+        let drift = if settings.follow_source_clock {
+            Some(DriftCorrector::new(
+                rate,
+                settings.audio_channels,
+                STEP_FRAMES,
+            )?)
+        } else {
+            None
+        };
         let stream = match format {
-            SampleFormat::I16 => build::<i16>(&device, config, playout, stats),
-            _ => build::<f32>(&device, config, playout, stats),
+            SampleFormat::I16 => build::<i16>(&device, config, playout, Arc::clone(&stats)),
+            _ => build::<f32>(&device, config, playout, Arc::clone(&stats)),
         }
         .map_err(|e| device_error(&label, "open the output stream", &e))?;
         stream
@@ -121,8 +148,13 @@ impl SoundSink {
             feed,
             in_channels: settings.audio_channels,
             dev_channels,
-            scratch: vec![0.0; STEP_FRAMES * dev_channels],
+            // Room for the drift corrector's extra samples (≤ 0.1 % and a few).
+            scratch: vec![0.0; (STEP_FRAMES + STEP_FRAMES / 500 + 8) * dev_channels],
             label,
+            drift,
+            target_frames: target,
+            latency_s: (target as f64 + buffer as f64) / rate,
+            stats,
         })
     }
 }
@@ -148,31 +180,55 @@ where
     )
 }
 
+/// Copies interleaved `cin`-channel frames into `cdev`-channel frames, non-finite samples
+/// as silence and everything clamped to full scale; returns the samples written.
+fn map_channels(src: &[f32], cin: usize, dst: &mut [f32], cdev: usize) -> usize {
+    let clean = |x: f32| {
+        if x.is_finite() {
+            x.clamp(-1.0, 1.0)
+        } else {
+            0.0
+        }
+    };
+    let frames = (src.len() / cin).min(dst.len() / cdev);
+    for (s, d) in src
+        .chunks_exact(cin)
+        .zip(dst.chunks_exact_mut(cdev))
+        .take(frames)
+    {
+        match (cin, cdev) {
+            (1, _) => d.fill(clean(s[0])),
+            (_, 1) => d[0] = 0.5 * (clean(s[0]) + clean(s[1])),
+            _ => {
+                d.fill(0.0);
+                d[0] = clean(s[0]);
+                d[1] = clean(s[1]);
+            }
+        }
+    }
+    frames * cdev
+}
+
 impl AudioSink for SoundSink {
     fn write(&mut self, samples: &[f32]) -> Result<()> {
         let (cin, cdev) = (self.in_channels, self.dev_channels);
         for piece in samples.chunks(STEP_FRAMES * cin) {
-            let frames = piece.len() / cin;
-            let out = &mut self.scratch[..frames * cdev];
-            for (src, dst) in piece.chunks_exact(cin).zip(out.chunks_exact_mut(cdev)) {
-                let clean = |x: f32| {
-                    if x.is_finite() {
-                        x.clamp(-1.0, 1.0)
-                    } else {
-                        0.0
-                    }
-                };
-                match (cin, cdev) {
-                    (1, _) => dst.fill(clean(src[0])),
-                    (_, 1) => dst[0] = 0.5 * (clean(src[0]) + clean(src[1])),
-                    _ => {
-                        dst.fill(0.0);
-                        dst[0] = clean(src[0]);
-                        dst[1] = clean(src[1]);
-                    }
+            let len = match &mut self.drift {
+                Some(drift) => {
+                    let fill = self.feed.queued() / cdev;
+                    self.stats.set_correction_ppm(drift.ppm());
+                    let out = drift.process(piece, fill, self.target_frames);
+                    map_channels(out, cin, &mut self.scratch, cdev)
                 }
-            }
-            self.feed.push(out).map_err(|_| {
+                None => map_channels(piece, cin, &mut self.scratch, cdev),
+            };
+            let out = &self.scratch[..len];
+            let pushed = if self.drift.is_some() {
+                self.feed.try_push_all(out)
+            } else {
+                0
+            };
+            self.feed.push(&out[pushed..]).map_err(|_| {
                 Error::file(
                     &self.label,
                     "the sound card stopped taking samples (device gone or stalled)",
@@ -184,8 +240,9 @@ impl AudioSink for SoundSink {
 
     fn finish(mut self: Box<Self>) -> Result<()> {
         let drained = self.feed.finish();
-        // The last device buffer leaves the callback before it is heard: let it play.
-        std::thread::sleep(std::time::Duration::from_millis(60));
+        // The last device buffer leaves the callback before it is heard: let it play out
+        // (plus 50 ms for the sound server's own buffering, as measured with PulseAudio).
+        std::thread::sleep(std::time::Duration::from_secs_f64(self.latency_s + 0.05));
         let _ = self.stream.pause();
         drained.map_err(|_| {
             Error::file(

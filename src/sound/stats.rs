@@ -14,6 +14,7 @@ pub struct LiveStats {
     output_ppm: AtomicU64,
     input_ppm: AtomicU64,
     latency_s: AtomicU64,
+    correction_ppm: AtomicU64,
 }
 
 impl Default for LiveStats {
@@ -26,6 +27,7 @@ impl Default for LiveStats {
             output_ppm: AtomicU64::new(nan),
             input_ppm: AtomicU64::new(nan),
             latency_s: AtomicU64::new(nan),
+            correction_ppm: AtomicU64::new(nan),
         }
     }
 }
@@ -46,6 +48,9 @@ pub struct LiveFigures {
     pub clock_ppm: Option<f64>,
     /// Output latency in seconds: the ring's target fill plus one device buffer.
     pub latency_s: Option<f64>,
+    /// The resampling correction applied to follow a live source's clock, ppm (positive:
+    /// more samples out than in); `None` when the output is paced by the card instead.
+    pub correction_ppm: Option<f64>,
 }
 
 fn load_f64(a: &AtomicU64) -> Option<f64> {
@@ -78,6 +83,10 @@ impl LiveStats {
     pub fn set_latency_s(&self, seconds: f64) {
         self.latency_s.store(seconds.to_bits(), Ordering::Relaxed);
     }
+    /// Publishes the drift corrector's ratio, ppm.
+    pub fn set_correction_ppm(&self, ppm: f64) {
+        self.correction_ppm.store(ppm.to_bits(), Ordering::Relaxed);
+    }
     /// The output device's clock error against the system clock, ppm.
     pub fn output_ppm(&self) -> Option<f64> {
         load_f64(&self.output_ppm)
@@ -101,6 +110,7 @@ impl LiveStats {
             stream_errors: self.stream_errors.load(Ordering::Relaxed),
             clock_ppm,
             latency_s: load_f64(&self.latency_s),
+            correction_ppm: load_f64(&self.correction_ppm),
         }
     }
 }
