@@ -49,7 +49,7 @@
 //! |---|---|---|---|
 //! | `cli` | on | the `amrx` command-line binary; turns on `lab` | clap, indicatif |
 //! | `lab` | via `cli` | the noise lab's parallel sweep (`lab::run_sweep`) and PNG charts (`lab::write_png`) | rayon, plotters |
-//! | `sound` | off | [`sound`]: sound-card audio out (`demod --play`), sound-card IQ in (`sound:NAME`), `amrx devices`; building needs the system's ALSA headers (Debian `libasound2-dev`) | cpal, ringbuf, alsa |
+//! | `sound` | off | the `sound` module: sound-card audio out (`demod --play`), sound-card IQ in (`sound:NAME`), `amrx devices`; building needs the system's ALSA headers (Debian `libasound2-dev`) | cpal, ringbuf, alsa |
 //!
 //! With `default-features = false` the receiver core remains: every block, receiver, input,
 //! output, measurement, the signal generator, the channel simulator, the threaded runtime and
