@@ -196,6 +196,13 @@ pub fn run_demod_live(
         totals.samples_in,
         aligned.written * channels as u64,
     );
+    let last_offset = receiver.offset_hz();
+    if last_offset != offset_hz {
+        report.warnings.push(format!(
+            "retuned while running: the last tuning was {last_offset} Hz; the measurements \
+             cover every tuning"
+        ));
+    }
     if let Some(figures) = sound.figures() {
         report.underruns = Some(figures.underruns);
         report.overruns = Some(figures.overruns);
