@@ -8,7 +8,7 @@
 //! ```
 
 use amrx::demod::{build_receiver, Mode, ReceiverConfig};
-use amrx::io::{open_input, AudioSink, InputOptions, WavAudioSink};
+use amrx::io::{open_input, AudioSink, InputOptions, WavAudioSink, WavEncoding};
 use amrx::pipeline::{run_stream, RuntimeConfig};
 use std::path::PathBuf;
 
@@ -27,7 +27,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let mut receiver = build_receiver(mode, &config)?;
     let channels = receiver.audio_channels() as u16;
     let rate = receiver.audio_rate() as u32;
-    let mut sink = WavAudioSink::create(&PathBuf::from(out), rate, channels, false)?;
+    let mut sink = WavAudioSink::create(&PathBuf::from(out), rate, channels, WavEncoding::Float32)?;
 
     let totals = run_stream(
         |buf| source.read(buf),
@@ -35,7 +35,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         |audio| sink.write(audio),
         RuntimeConfig::default(),
     )?;
-    Box::new(sink).finish()?;
+    sink.finish()?;
 
     let m = receiver.measurements();
     println!(

@@ -98,3 +98,10 @@ pub struct ReadmeDoctests;
 pub use num_complex;
 pub use num_complex::Complex32;
 pub use sample::Sample;
+
+/// The README's Rust snippets, compiled and run as doc tests with every warning an error, so
+/// that what a reader copies compiles clean.
+#[cfg(doctest)]
+#[doc(test(attr(deny(warnings))))]
+#[doc = include_str!("../README.md")]
+pub struct ReadmeSnippets;

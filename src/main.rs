@@ -1,20 +1,22 @@
 //! `amrx`: the command-line receiver. Argument parsing and wiring only; the work is in the
 //! library.
 
-use amrx::demod::{LoopSettings, Mode, Notch, ReceiverOptions, Sideband, SsbMethod, MODES};
+use amrx::demod::{
+    AudioLevel, LoopSettings, Mode, Notch, ReceiverOptions, Sideband, SsbMethod, MODES,
+};
 use amrx::dsp::AgcSettings;
-use amrx::io::{InputOptions, SampleFormat};
+use amrx::io::{check_destination, InputOptions, SampleFormat, StreamOptions};
 use amrx::lab::{self, Axis, SweepSpec};
 use amrx::measure::Limits;
-use amrx::pipeline::demo::{default_demo_dir, run_demo, DemoRow};
-use amrx::pipeline::synth_job::{run_scene_limited, DEFAULT_MAX_SAMPLES};
+use amrx::pipeline::demo::{default_demo_dir, run_demo_with_progress, DemoRow};
+use amrx::pipeline::synth_job::{run_scene_with_progress, DEFAULT_MAX_SAMPLES};
 use amrx::pipeline::{
     check_outputs, info, run_demod_live, run_measure, AudioTarget, DemodRequest, LiveControl,
-    MeasureRequest, Tuning,
+    MeasureRequest, Progress, Tuning,
 };
 use amrx::Error;
-use clap::{Args, Parser, Subcommand, ValueEnum};
-use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
+use clap::{Args, CommandFactory, Parser, Subcommand, ValueEnum};
+use indicatif::{ProgressBar, ProgressDrawTarget, ProgressState, ProgressStyle};
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -23,7 +25,7 @@ use std::sync::Arc;
 
 /// Receiver for the amplitude-modulation family: IQ recordings in, audio out.
 #[derive(Parser, Debug)]
-#[command(name = "amrx", version, about)]
+#[command(name = "amrx", version, about, disable_help_subcommand = true)]
 struct Cli {
     #[command(subcommand)]
     command: Command,
@@ -47,37 +49,66 @@ enum Command {
         /// The scene file (JSON; schema in the amrx::synth::scene docs).
         scene: PathBuf,
         /// Output base name: writes BASE.sigmf-data and BASE.sigmf-meta.
-        #[arg(long)]
+        #[arg(long, allow_negative_numbers = true)]
         out: PathBuf,
         /// Sample datatype, overriding the scene's (complex types only).
-        #[arg(long, value_parser = parse_format)]
+        #[arg(long, allow_negative_numbers = true, value_parser = parse_format)]
         datatype: Option<SampleFormat>,
         /// Allow a scene of more than 2^30 samples (up to 2^40).
         #[arg(long)]
         allow_large: bool,
+        /// No progress bar.
+        #[arg(long)]
+        quiet: bool,
     },
     /// Measure detectors' output SNR against input SNR in noise, with theory overlaid.
     Sweep(SweepArgs),
     /// List the sound cards' inputs and outputs with their rates and channel counts.
     Devices,
+    /// Show the help of amrx or of one of its commands.
+    Help {
+        /// The command to explain (all commands when absent).
+        command: Option<String>,
+    },
     /// Write an invented scene of stations as SigMF, receive each, and print what was measured.
     Demo {
         /// Folder for the recording, audio and reports (default: amrx-demo in the temp folder).
         dir: Option<PathBuf>,
+        /// No progress bar.
+        #[arg(long)]
+        quiet: bool,
     },
 }
 
 #[derive(Args, Debug)]
 struct InputArgs {
     /// Raw sample format (raw files and standard input).
-    #[arg(long, value_parser = parse_format)]
+    #[arg(long, allow_negative_numbers = true, value_parser = parse_format)]
     format: Option<SampleFormat>,
     /// Sample rate in Hz (raw input, or a SigMF recording without core:sample_rate).
     #[arg(long, allow_negative_numbers = true)]
     rate: Option<f64>,
     /// Channel of a multi-channel SigMF recording (0-based).
-    #[arg(long, default_value_t = 0)]
+    #[arg(long, allow_negative_numbers = true, default_value_t = 0)]
     channel: usize,
+    /// Exchange I and Q (for front ends that deliver them swapped: the spectrum is mirrored).
+    #[arg(long)]
+    swap_iq: bool,
+    /// Centre frequency of the recording in Hz, for inputs that do not carry one (raw
+    /// captures); lets --carrier tune by absolute frequency.
+    #[arg(long, allow_negative_numbers = true)]
+    centre: Option<f64>,
+}
+
+/// The part of the input to process.
+#[derive(Args, Debug)]
+struct SpanArgs {
+    /// Seconds of input to skip first.
+    #[arg(long, allow_negative_numbers = true, default_value_t = 0.0)]
+    start: f64,
+    /// Seconds to process (default: to the end).
+    #[arg(long, allow_negative_numbers = true)]
+    duration: Option<f64>,
 }
 
 #[derive(Args, Debug)]
@@ -86,7 +117,7 @@ struct DemodArgs {
     /// sound:NAME for a sound card's stereo input, left = I, right = Q; sound:default).
     input: PathBuf,
     /// Receive mode (the library's mode table: am, sam, dsb, usb, lsb, isb, vsb).
-    #[arg(long, value_parser = parse_mode)]
+    #[arg(long, allow_negative_numbers = true, value_parser = parse_mode)]
     mode: Mode,
     /// Carrier frequency relative to the recording centre, in Hz.
     #[arg(long, allow_negative_numbers = true, conflicts_with = "carrier")]
@@ -101,10 +132,10 @@ struct DemodArgs {
     #[arg(long, allow_negative_numbers = true)]
     bandwidth: Option<f64>,
     /// Sideband to keep (sam only).
-    #[arg(long, value_enum)]
+    #[arg(long, allow_negative_numbers = true, value_enum)]
     sideband: Option<SidebandArg>,
     /// Single-sideband method (usb, lsb, isb).
-    #[arg(long, value_enum)]
+    #[arg(long, allow_negative_numbers = true, value_enum)]
     ssb_method: Option<SsbMethodArg>,
     /// Lock to a pilot or full carrier when one is present (usb, lsb).
     #[arg(long)]
@@ -115,9 +146,17 @@ struct DemodArgs {
     /// Carrier-loop damping (modes with a carrier loop).
     #[arg(long, allow_negative_numbers = true)]
     loop_damping: Option<f64>,
-    /// Gain control (the mode's default when absent).
-    #[arg(long, value_enum, conflicts_with = "gain")]
+    /// Gain control. Default: a listening level (the mode's AGC; slow AGC for am and sam).
+    #[arg(
+        long,
+        allow_negative_numbers = true,
+        value_enum,
+        conflicts_with = "gain"
+    )]
     agc: Option<AgcArg>,
+    /// Calibrated level for measuring: unity gain, no AGC (the audio keeps the signal's level).
+    #[arg(long, conflicts_with_all = ["agc", "gain"])]
+    calibrated: bool,
     /// Correct the front end's IQ gain and phase imbalance blindly (removes mirror images).
     #[arg(long)]
     iq_balance: bool,
@@ -126,13 +165,13 @@ struct DemodArgs {
     noise_blanker: bool,
     /// Notch on the audio: `auto` finds and removes steady whistles, a number removes the tone
     /// at that audio frequency in Hz.
-    #[arg(long, value_parser = parse_notch)]
+    #[arg(long, allow_negative_numbers = true, value_parser = parse_notch)]
     notch: Option<Notch>,
     /// Fixed audio gain in dB instead of AGC.
     #[arg(long, allow_negative_numbers = true)]
     gain: Option<f64>,
     /// Output WAV file, or - for raw f32 on standard output.
-    #[arg(long, required_unless_present = "play")]
+    #[arg(long, allow_negative_numbers = true, required_unless_present = "play")]
     out: Option<PathBuf>,
     /// Play the audio on the sound card (a file input is then paced to real time); type an
     /// offset in Hz and Enter to retune, u/d [HZ] to step, q to stop.
@@ -149,11 +188,13 @@ struct DemodArgs {
     #[arg(long)]
     pcm16: bool,
     /// Write a JSON report of what was measured.
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     report: Option<PathBuf>,
     /// No progress bar.
     #[arg(long)]
     quiet: bool,
+    #[command(flatten)]
+    span: SpanArgs,
     #[command(flatten)]
     input_options: InputArgs,
 }
@@ -186,20 +227,16 @@ struct MeasureArgs {
     #[arg(long, allow_negative_numbers = true)]
     limit_negative: Option<f64>,
     /// Write windows, events and summary as JSON (fractions, 1.0 = 100 %).
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     json: Option<PathBuf>,
     /// Write one CSV row per window.
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     csv: Option<PathBuf>,
     /// Draw peaks, limits, carrier level and events as a PNG.
-    #[arg(long)]
-    png: Option<PathBuf>,
-    /// Seconds of input to skip first.
-    #[arg(long, allow_negative_numbers = true, default_value_t = 0.0)]
-    start: f64,
-    /// Seconds to measure (default: to the end).
     #[arg(long, allow_negative_numbers = true)]
-    duration: Option<f64>,
+    png: Option<PathBuf>,
+    #[command(flatten)]
+    span: SpanArgs,
     #[command(flatten)]
     input_options: InputArgs,
 }
@@ -207,10 +244,10 @@ struct MeasureArgs {
 #[derive(Args, Debug)]
 struct SweepArgs {
     /// Detectors, comma-separated: am, sam, dsb, usb, lsb, diode, diode:RC_MICROSECONDS.
-    #[arg(long, default_value = "am,sam,dsb,usb")]
+    #[arg(long, allow_negative_numbers = true, default_value = "am,sam,dsb,usb")]
     detectors: String,
     /// What the input axis sets: channel (baseband) SNR or carrier-to-noise ratio.
-    #[arg(long, value_enum, default_value = "snr")]
+    #[arg(long, allow_negative_numbers = true, value_enum, default_value = "snr")]
     axis: AxisArg,
     /// First input value in dB.
     #[arg(long, allow_negative_numbers = true, default_value_t = -12.0)]
@@ -219,31 +256,31 @@ struct SweepArgs {
     #[arg(long, allow_negative_numbers = true, default_value_t = 36.0)]
     to: f64,
     /// Step in dB.
-    #[arg(long, default_value_t = 2.0)]
+    #[arg(long, allow_negative_numbers = true, default_value_t = 2.0)]
     step: f64,
     /// Monte Carlo trials per point.
-    #[arg(long, default_value_t = 8)]
+    #[arg(long, allow_negative_numbers = true, default_value_t = 8)]
     trials: usize,
     /// Seconds of signal per trial (after settling).
-    #[arg(long, default_value_t = 0.5)]
+    #[arg(long, allow_negative_numbers = true, default_value_t = 0.5)]
     seconds: f64,
     /// Modulation index of the full-carrier test signal.
-    #[arg(long, default_value_t = 0.5)]
+    #[arg(long, allow_negative_numbers = true, default_value_t = 0.5)]
     mu: f64,
     /// Test tone in Hz.
-    #[arg(long, default_value_t = 1000.0)]
+    #[arg(long, allow_negative_numbers = true, default_value_t = 1000.0)]
     tone: f64,
     /// Message bandwidth W in Hz.
-    #[arg(long, default_value_t = 5000.0)]
+    #[arg(long, allow_negative_numbers = true, default_value_t = 5000.0)]
     bandwidth: f64,
     /// Seed of every random process.
-    #[arg(long, default_value_t = 1)]
+    #[arg(long, allow_negative_numbers = true, default_value_t = 1)]
     seed: u64,
     /// CSV output.
-    #[arg(long, default_value = "sweep.csv")]
+    #[arg(long, allow_negative_numbers = true, default_value = "sweep.csv")]
     csv: PathBuf,
     /// PNG plot output.
-    #[arg(long, default_value = "sweep.png")]
+    #[arg(long, allow_negative_numbers = true, default_value = "sweep.png")]
     png: PathBuf,
     /// No progress bar.
     #[arg(long)]
@@ -310,10 +347,14 @@ fn main() -> ExitCode {
             out,
             datatype,
             allow_large,
-        } => synth(&scene, &out, datatype, allow_large).map(|()| 0),
+            quiet,
+        } => synth(&scene, &out, datatype, allow_large, quiet).map(|()| 0),
         Command::Sweep(args) => sweep(&args).map(|()| 0),
         Command::Devices => devices().map(|()| 0),
-        Command::Demo { dir } => demo(dir.unwrap_or_else(default_demo_dir)).map(|()| 0),
+        Command::Help { command } => help(command.as_deref()).map(|()| 0),
+        Command::Demo { dir, quiet } => {
+            demo(dir.unwrap_or_else(default_demo_dir), quiet).map(|()| 0)
+        }
     };
     match outcome {
         Ok(code) => ExitCode::from(code),
@@ -378,6 +419,11 @@ impl InputArgs {
             format: self.format,
             rate: self.rate,
             channel: self.channel,
+            stream: StreamOptions {
+                swap_iq: self.swap_iq,
+                centre_hz: self.centre,
+                ..StreamOptions::default()
+            },
         }
     }
 }
@@ -422,6 +468,7 @@ fn flag_for(parameter: &str) -> Option<&'static str> {
         "window_s" => "--window",
         "start_s" => "--start",
         "duration_s" => "--duration",
+        "centre_hz" => "--centre",
         "limit_positive" => "--limit-positive",
         "limit_negative" => "--limit-negative",
         "latency_s" => "--latency (in ms)",
@@ -470,7 +517,14 @@ fn demod(args: DemodArgs) -> Result<u8, String> {
     };
     let request = DemodRequest {
         input: args.input.clone(),
-        input_options: args.input_options.options(),
+        input_options: InputOptions {
+            stream: StreamOptions {
+                start_s: args.span.start,
+                duration_s: args.span.duration,
+                ..args.input_options.options().stream
+            },
+            ..args.input_options.options()
+        },
         mode,
         tuning,
         options: receiver_options(&args),
@@ -489,10 +543,10 @@ fn demod(args: DemodArgs) -> Result<u8, String> {
         live::done();
         report
     } else {
-        let bar = progress_bar(args.quiet, "samples");
+        let bar = progress_bar(args.quiet, "demod");
         let report = run_demod_live(
             &request,
-            &|n| bar.set_position(n),
+            &|p| show_progress(&bar, p),
             &interruption.stop,
             &control,
         );
@@ -517,6 +571,15 @@ fn measure(args: &MeasureArgs) -> Result<(), String> {
         .map(PathBuf::as_path)
         .collect();
     check_outputs(&args.input, &outputs).map_err(|e| with_input(&args.input, e))?;
+    for (path, extension, what) in [
+        (&args.json, "json", "measurements"),
+        (&args.csv, "csv", "a table"),
+        (&args.png, "png", "a chart"),
+    ] {
+        if let Some(path) = path {
+            check_destination(path, &[extension], what).map_err(|e| e.to_string())?;
+        }
+    }
     let tuning = match (args.offset, args.carrier) {
         (Some(offset), _) => Tuning::Offset(offset),
         (None, Some(carrier)) => Tuning::Carrier(carrier),
@@ -533,11 +596,11 @@ fn measure(args: &MeasureArgs) -> Result<(), String> {
         bandwidth_hz: args.bandwidth,
         window_s: args.window,
         limits,
-        start_s: args.start,
-        duration_s: args.duration,
+        start_s: args.span.start,
+        duration_s: args.span.duration,
     };
-    let bar = progress_bar(false, "samples");
-    let outcome = run_measure(&request, &|n| bar.set_position(n));
+    let bar = progress_bar(false, "measure");
+    let outcome = run_measure(&request, &|p| show_progress(&bar, p));
     bar.finish_and_clear();
     let outcome = outcome.map_err(|e| with_input(&args.input, e))?;
     for warning in &outcome.warnings {
@@ -574,7 +637,11 @@ fn receiver_options(args: &DemodArgs) -> ReceiverOptions {
         (None, Some(AgcArg::Speech)) => Some(AgcSettings::SPEECH),
         (None, Some(AgcArg::Slow)) => Some(AgcSettings::SLOW),
         (None, Some(AgcArg::Off)) => Some(AgcSettings::OFF),
-        (None, None) => None,
+        (None, None) => Some(if args.calibrated {
+            AudioLevel::Calibrated.agc(args.mode)
+        } else {
+            AudioLevel::Listening.agc(args.mode)
+        }),
     };
     ReceiverOptions {
         audio_rate: args.audio_rate,
@@ -601,18 +668,117 @@ fn receiver_options(args: &DemodArgs) -> ReceiverOptions {
     }
 }
 
-fn progress_bar(quiet: bool, unit: &str) -> ProgressBar {
+/// A progress bar on standard error (hidden with `--quiet` or when standard error is not a
+/// terminal). Without a total it counts and shows the rate; [`show_progress`] turns it into a
+/// bar with percentage and time left once the job says how long it is.
+fn progress_bar(quiet: bool, label: &str) -> ProgressBar {
     if quiet || !std::io::stderr().is_terminal() {
         return ProgressBar::with_draw_target(None, ProgressDrawTarget::hidden());
     }
     let bar = ProgressBar::no_length();
+    bar.set_prefix(label.to_string());
+    bar.set_style(samples_style(false));
+    bar
+}
+
+/// A job of known length: bar, percentage, samples in millions, rate, time left.
+const BAR_TEMPLATE: &str =
+    "{prefix} [{bar:30}] {percent:>3}%  {done_ms}/{total_ms} MS  {msps}  {elapsed} elapsed, {eta} left";
+/// A stream of unknown length: samples in millions, rate, time so far.
+const COUNT_TEMPLATE: &str = "{spinner} {prefix} {done_ms} MS  {msps}  {elapsed} elapsed";
+/// The sweep: trials, with percentage and time left.
+const SWEEP_TEMPLATE: &str =
+    "sweep [{bar:30}] {percent:>3}%  {pos}/{len} trials  {per_sec:.1}  {elapsed} elapsed, {eta} left";
+
+/// Samples in millions (MS) and the rate in MS/s; with a total, the bar, percentage and time left.
+fn samples_style(with_total: bool) -> ProgressStyle {
+    let template = if with_total {
+        BAR_TEMPLATE
+    } else {
+        COUNT_TEMPLATE
+    };
+    ProgressStyle::with_template(template)
+        .unwrap_or_else(|_| ProgressStyle::default_bar())
+        .progress_chars("=> ")
+        .with_key(
+            "done_ms",
+            |s: &ProgressState, w: &mut dyn std::fmt::Write| {
+                let _ = write!(w, "{}", mega(s.pos() as f64));
+            },
+        )
+        .with_key(
+            "total_ms",
+            |s: &ProgressState, w: &mut dyn std::fmt::Write| {
+                let _ = write!(w, "{}", mega(s.len().unwrap_or(0) as f64));
+            },
+        )
+        .with_key("msps", |s: &ProgressState, w: &mut dyn std::fmt::Write| {
+            let _ = write!(w, "{} MS/s", mega(s.per_sec()));
+        })
+}
+
+/// A count in millions with a precision that suits its size: 0.052, 1.25, 72.0, 1440.
+fn mega(count: f64) -> String {
+    let m = count / 1e6;
+    if !m.is_finite() {
+        "-".to_string()
+    } else if m < 1.0 {
+        format!("{m:.3}")
+    } else if m < 10.0 {
+        format!("{m:.2}")
+    } else if m < 1000.0 {
+        format!("{m:.1}")
+    } else {
+        format!("{m:.0}")
+    }
+}
+
+/// Moves the bar; the first report of a total turns the counter into a bar with time left.
+fn show_progress(bar: &ProgressBar, p: Progress) {
+    if let Some(total) = p.total {
+        if bar.length() != Some(total) {
+            bar.set_length(total);
+            bar.set_style(samples_style(true));
+        }
+    }
+    bar.set_position(p.done);
+}
+
+/// The sweep's bar: trials, with percentage and time left.
+fn trials_bar(quiet: bool, total: u64) -> ProgressBar {
+    if quiet || !std::io::stderr().is_terminal() {
+        return ProgressBar::with_draw_target(None, ProgressDrawTarget::hidden());
+    }
+    let bar = ProgressBar::new(total);
     bar.set_style(
-        ProgressStyle::with_template(&format!(
-            "{{spinner}} {{human_pos}} {unit}  {{per_sec}}  {{elapsed}}"
-        ))
-        .unwrap_or_else(|_| ProgressStyle::default_spinner()),
+        ProgressStyle::with_template(SWEEP_TEMPLATE)
+            .unwrap_or_else(|_| ProgressStyle::default_bar())
+            .progress_chars("=> "),
     );
     bar
+}
+
+/// `amrx help [COMMAND]`: the same text as `--help`.
+fn help(command: Option<&str>) -> Result<(), String> {
+    let mut cli = Cli::command();
+    cli.build();
+    let text = match command {
+        None => cli.render_long_help(),
+        Some(name) => match cli.find_subcommand_mut(name) {
+            Some(sub) => sub.render_long_help(),
+            None => {
+                let names: Vec<String> = Cli::command()
+                    .get_subcommands()
+                    .map(|c| c.get_name().to_string())
+                    .collect();
+                return Err(format!(
+                    "no command '{name}' (commands: {})",
+                    names.join(", ")
+                ));
+            }
+        },
+    };
+    emit(&text.to_string())
 }
 
 fn show_info(input: &Path, options: &InputArgs) -> Result<(), String> {
@@ -625,14 +791,17 @@ fn synth(
     out: &Path,
     datatype: Option<SampleFormat>,
     allow_large: bool,
+    quiet: bool,
 ) -> Result<(), String> {
     let limit = if allow_large {
         u64::MAX
     } else {
         DEFAULT_MAX_SAMPLES
     };
-    let summary =
-        run_scene_limited(scene, out, datatype, limit).map_err(|e| with_input(scene, e))?;
+    let bar = progress_bar(quiet, "synth");
+    let summary = run_scene_with_progress(scene, out, datatype, limit, &|p| show_progress(&bar, p));
+    bar.finish_and_clear();
+    let summary = summary.map_err(|e| with_input(scene, e))?;
     let mut text = String::new();
     outln!(
         text,
@@ -681,6 +850,9 @@ fn synth(
 }
 
 fn sweep(args: &SweepArgs) -> Result<(), String> {
+    // Output paths first: a sweep can take minutes, a bad path must not wait for its end.
+    check_destination(&args.csv, &["csv"], "the sweep's table").map_err(|e| e.to_string())?;
+    check_destination(&args.png, &["png"], "the sweep's chart").map_err(|e| e.to_string())?;
     let detectors = lab::parse_detectors(&args.detectors).map_err(in_cli_words)?;
     let axis = match args.axis {
         AxisArg::Snr => Axis::Snr,
@@ -694,8 +866,7 @@ fn sweep(args: &SweepArgs) -> Result<(), String> {
     spec.trial.mu = args.mu;
     spec.trial.tone_hz = args.tone;
     spec.trial.bandwidth_hz = args.bandwidth;
-    let bar = progress_bar(args.quiet, "trials");
-    bar.set_length(spec.total_trials() as u64);
+    let bar = trials_bar(args.quiet, spec.total_trials() as u64);
     let result = lab::run_sweep(&spec, |p| bar.set_position(p.done as u64));
     bar.finish_and_clear();
     let result = result.map_err(in_cli_words)?;
@@ -900,8 +1071,11 @@ mod live {
     }
 }
 
-fn demo(dir: PathBuf) -> Result<(), String> {
-    let (recording, rows) = run_demo(&dir).map_err(|e| e.to_string())?;
+fn demo(dir: PathBuf, quiet: bool) -> Result<(), String> {
+    let bar = progress_bar(quiet, "demo");
+    let outcome = run_demo_with_progress(&dir, &|p| show_progress(&bar, p));
+    bar.finish_and_clear();
+    let (recording, rows) = outcome.map_err(|e| e.to_string())?;
     let mut text = String::new();
     outln!(
         text,
@@ -964,5 +1138,100 @@ fn demo_line(row: &DemoRow) -> String {
                 r.warnings.join("; ")
             )
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The arguments each command cannot go without.
+    fn required(command: &str) -> Vec<&'static str> {
+        match command {
+            "demod" => vec!["demod", "in.cu8", "--mode", "am", "--out", "a.wav"],
+            "measure" => vec!["measure", "in.cu8", "--offset", "0"],
+            "info" => vec!["info", "in.cu8"],
+            "synth" => vec!["synth", "scene.json", "--out", "x"],
+            other => vec![Box::leak(other.to_string().into_boxed_str())],
+        }
+    }
+
+    #[test]
+    fn every_option_takes_a_negative_number_after_a_space() {
+        // `--step -2` must reach the option (and its own validation), never be read as an
+        // unknown flag `-2`: checked for every option of every command that takes a value.
+        let cli = Cli::command();
+        let mut checked = 0;
+        for sub in cli.get_subcommands() {
+            for arg in sub.get_arguments() {
+                let Some(long) = arg.get_long() else { continue };
+                if !arg.get_action().takes_values() {
+                    continue;
+                }
+                let mut argv = vec!["amrx".to_string()];
+                argv.extend(required(sub.get_name()).iter().map(|a| a.to_string()));
+                argv.push(format!("--{long}"));
+                argv.push("-2".to_string());
+                if let Err(e) = Cli::try_parse_from(&argv) {
+                    assert_ne!(
+                        e.kind(),
+                        clap::error::ErrorKind::UnknownArgument,
+                        "{argv:?}: {e}"
+                    );
+                }
+                checked += 1;
+            }
+        }
+        assert!(checked > 30, "{checked}");
+    }
+
+    #[test]
+    fn help_works_however_it_is_asked() {
+        for argv in [
+            vec!["amrx", "--help"],
+            vec!["amrx", "help", "--help"],
+            vec!["amrx", "demod", "--help"],
+        ] {
+            let e = Cli::try_parse_from(&argv).unwrap_err();
+            assert_eq!(e.kind(), clap::error::ErrorKind::DisplayHelp, "{argv:?}");
+        }
+        assert!(matches!(
+            Cli::try_parse_from(["amrx", "help", "demod"]).unwrap().command,
+            Command::Help { command: Some(ref c) } if c == "demod"
+        ));
+        assert!(help(Some("nosuch")).unwrap_err().contains("demod, measure"));
+    }
+
+    #[test]
+    fn counts_read_in_millions_with_a_sensible_precision() {
+        assert_eq!(mega(52_000.0), "0.052");
+        assert_eq!(mega(5_393_500.817_8), "5.39");
+        assert_eq!(mega(72_000_000.0), "72.0");
+        assert_eq!(mega(1.44e9), "1440");
+        assert_eq!(mega(f64::NAN), "-");
+    }
+
+    #[test]
+    fn the_progress_templates_parse_and_a_total_turns_the_counter_into_a_bar() {
+        for template in [BAR_TEMPLATE, COUNT_TEMPLATE, SWEEP_TEMPLATE] {
+            assert!(ProgressStyle::with_template(template).is_ok(), "{template}");
+        }
+        let bar = ProgressBar::hidden();
+        show_progress(
+            &bar,
+            Progress {
+                done: 5,
+                total: None,
+            },
+        );
+        assert_eq!(bar.length(), None);
+        show_progress(
+            &bar,
+            Progress {
+                done: 6,
+                total: Some(10),
+            },
+        );
+        assert_eq!((bar.position(), bar.length()), (6, Some(10)));
     }
 }

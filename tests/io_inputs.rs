@@ -3,7 +3,7 @@
 
 use amrx::io::{
     open_input, AudioSink, InputOptions, IqSource, RawAudioSink, RawSource, SampleFormat,
-    SigmfWriter, WavAudioSink, WavIqSource,
+    SigmfWriter, WavAudioSink, WavEncoding, WavIqSource,
 };
 mod common;
 
@@ -19,6 +19,7 @@ fn options(format: Option<SampleFormat>, rate: Option<f64>) -> InputOptions {
         format,
         rate,
         channel: 0,
+        ..InputOptions::default()
     }
 }
 
@@ -324,7 +325,11 @@ fn open_input_errors() {
     std::fs::write(&raw, [1u8, 2, 3, 4]).unwrap();
     let err = open_input(&raw, &options(None, Some(1e3))).err().unwrap();
     assert!(matches!(err, Error::InvalidFile { .. }));
-    assert_names(&err, "iq.dat", "unknown input type; give --format");
+    assert_names(
+        &err,
+        "iq.dat",
+        "unknown input type; name the file after its datatype",
+    );
     let err = open_input(&raw, &options(Some(SampleFormat::Cu8), None))
         .err()
         .unwrap();
@@ -406,7 +411,7 @@ fn wav_audio_sink_writes_float_and_pcm16() {
     let samples = [0.5f32, -0.25, f32::NAN, 1.5, -2.0, f32::INFINITY];
     let float_path = dir.path("out-f32.wav");
     let mut sink: Box<dyn AudioSink> =
-        Box::new(WavAudioSink::create(&float_path, 8000, 2, false).unwrap());
+        Box::new(WavAudioSink::create(&float_path, 8000, 2, WavEncoding::Float32).unwrap());
     sink.write(&samples[..4]).unwrap();
     sink.write(&samples[4..]).unwrap();
     sink.finish().unwrap();
@@ -419,7 +424,7 @@ fn wav_audio_sink_writes_float_and_pcm16() {
 
     let pcm_path = dir.path("out-i16.wav");
     let mut sink: Box<dyn AudioSink> =
-        Box::new(WavAudioSink::create(&pcm_path, 8000, 1, true).unwrap());
+        Box::new(WavAudioSink::create(&pcm_path, 8000, 1, WavEncoding::Pcm16).unwrap());
     sink.write(&samples).unwrap();
     sink.finish().unwrap();
     let mut r = hound::WavReader::open(&pcm_path).unwrap();
@@ -427,7 +432,12 @@ fn wav_audio_sink_writes_float_and_pcm16() {
     let got: Vec<i16> = r.samples::<i16>().map(Result::unwrap).collect();
     assert_eq!(got, [16384, -8192, 0, 32767, -32768, 0]);
 
-    let err = WavAudioSink::create(&dir.path("no/such/dir/out.wav"), 8000, 1, false);
+    let err = WavAudioSink::create(
+        &dir.path("no/such/dir/out.wav"),
+        8000,
+        1,
+        WavEncoding::Float32,
+    );
     assert!(matches!(&err, Err(Error::Io { path, .. }) if path.ends_with("out.wav")));
 }
 

@@ -3,7 +3,7 @@
 //! The files are left in target/tmp/io_rf64/ for tests/io_rf64_check.py (CI), a reader
 //! written from the EBU document rather than from this code.
 
-use amrx::io::{AudioSink, WavAudioSink};
+use amrx::io::{AudioSink, WavAudioSink, WavEncoding};
 use std::path::PathBuf;
 
 fn out_dir() -> PathBuf {
@@ -27,9 +27,18 @@ fn write(name: &str, pcm16: bool, frames: usize, limit: u64) -> (PathBuf, Vec<f3
         .map(|i| (i % 1000) as f32 / 1000.0 - 0.5)
         .collect();
     let mut sink = Box::new(
-        WavAudioSink::create(&path, 8000, 2, pcm16)
-            .unwrap()
-            .with_riff_limit(limit),
+        WavAudioSink::create(
+            &path,
+            8000,
+            2,
+            if pcm16 {
+                WavEncoding::Pcm16
+            } else {
+                WavEncoding::Float32
+            },
+        )
+        .unwrap()
+        .with_riff_limit(limit),
     );
     for piece in samples.chunks(777) {
         sink.write(piece).unwrap();

@@ -1,5 +1,7 @@
 //! The sweep's CSV and PNG outputs.
 
+mod common;
+
 use amrx::demod::Mode;
 use amrx::lab::{run_sweep, to_csv, write_csv, write_png, Axis, Detector, SweepSpec, CSV_HEADER};
 
@@ -14,11 +16,9 @@ fn small_sweep(axis: Axis) -> amrx::lab::SweepResult {
     run_sweep(&spec, |_| {}).unwrap()
 }
 
-fn scratch(name: &str) -> std::path::PathBuf {
-    let dir = std::env::temp_dir().join(format!("amrx-lab-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
-    dir
+/// A folder removed with all it holds when the test ends.
+fn scratch(name: &str) -> common::TempDir {
+    common::TempDir::new(name)
 }
 
 #[test]

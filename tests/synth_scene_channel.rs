@@ -1,6 +1,8 @@
 //! Channel effects in scene files: per-emission fading, drift and phase noise, scene-wide
 //! impulse noise, their errors, seeds and chunk invariance.
 
+mod common;
+
 use amrx::measure::{find_carrier, PowerSpectrum};
 use amrx::pipeline::synth_job::write_scene;
 use amrx::synth::{Scene, SceneGenerator};
@@ -241,8 +243,7 @@ fn every_effect_is_chunk_invariant() {
     assert!(whole.iter().all(|z| z.re.is_finite() && z.im.is_finite()));
     // Same scene, same file; and the written file holds the same samples.
     assert!(generate(&scene) == whole);
-    let dir = std::env::temp_dir().join(format!("amrx-channel-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let dir = common::TempDir::new("channel");
     let s = write_scene(
         &scene,
         Path::new("everything.json"),
@@ -271,7 +272,6 @@ fn every_effect_is_chunk_invariant() {
     assert_eq!(a.carrier_hz, 7e6 - 8996.0);
     assert!((a.upper_edge_hz - (7e6 - 8996.0 + 4.5 + 3000.0)).abs() < 1e-6);
     assert_eq!(a.lower_edge_hz, 7e6 - 8996.0 - 3000.0);
-    let _ = std::fs::remove_dir_all(&dir);
 }
 
 #[test]

@@ -459,6 +459,14 @@ impl<D: Detector> Receiver for Assembly<D> {
         if self.meter.is_some() {
             centre_spike_is_no_station(&mut m);
         }
+        if m.snr_db.is_none() {
+            m.snr_db = super::channel_snr::estimate_channel_snr_db(
+                self.front.spectrum(),
+                super::channel_snr::occupied_band_hz(&self.settings),
+                self.settings.bandwidth_hz,
+                self.front.flat_band_hz(),
+            );
+        }
         if m.cnr_db.is_some() && m.cnr_bandwidth_hz.is_none() {
             // Every detector's CNR is FrontEnd::cnr_db's: noise in twice the bandwidth.
             m.cnr_bandwidth_hz = Some(2.0 * self.settings.bandwidth_hz);

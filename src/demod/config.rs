@@ -197,3 +197,40 @@ impl ModeSettings {
         })
     }
 }
+
+/// How loud the audio is: for listening, or calibrated for measuring.
+///
+/// The mode table's defaults ([`super::MODES`]) leave am and sam at unity gain, so that a
+/// library user measuring levels gets calibrated audio. The command line listens by default.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum AudioLevel {
+    /// A comfortable, steady level whatever the signal strength: the mode's AGC where it has
+    /// one, the slow (broadcast) AGC for the modes that default to unity gain.
+    #[default]
+    Listening,
+    /// Unity gain, no AGC: the audio keeps the signal's level (am and sam: a carrier of
+    /// amplitude A modulated to depth μ by a tone gives a tone of peak A·μ; usb and lsb: a
+    /// tone of amplitude A in the sideband gives a tone of peak A).
+    Calibrated,
+}
+
+impl AudioLevel {
+    /// The gain control this level asks for in `mode`.
+    ///
+    /// ```
+    /// use amrx::demod::{AudioLevel, Mode, MODES};
+    /// use amrx::dsp::AgcSettings;
+    /// assert_eq!(AudioLevel::Listening.agc(Mode::Am), AgcSettings::SLOW);
+    /// assert_eq!(AudioLevel::Listening.agc(Mode::Usb), AgcSettings::SPEECH);
+    /// assert_eq!(AudioLevel::Calibrated.agc(Mode::Usb), AgcSettings::OFF);
+    /// ```
+    pub fn agc(self, mode: Mode) -> AgcSettings {
+        match self {
+            AudioLevel::Calibrated => AgcSettings::OFF,
+            AudioLevel::Listening => match mode.spec().agc {
+                automatic @ AgcSettings::Automatic { .. } => automatic,
+                AgcSettings::Fixed { .. } => AgcSettings::SLOW,
+            },
+        }
+    }
+}

@@ -17,6 +17,7 @@ pub mod assembly;
 pub mod audio_notch;
 pub mod audio_stage;
 pub mod blank_guard;
+pub mod channel_snr;
 pub mod config;
 pub mod detector;
 pub mod diode;
@@ -39,8 +40,8 @@ pub use audio_notch::AudioNotch;
 pub use audio_stage::AudioStage;
 pub use blank_guard::{Blanking, BlankingGuard};
 pub use config::{
-    LoopSettings, ModeSettings, Notch, ReceiverConfig, ReceiverOptions, Sideband, SsbMethod,
-    DEFAULT_AUDIO_RATE_HZ,
+    AudioLevel, LoopSettings, ModeSettings, Notch, ReceiverConfig, ReceiverOptions, Sideband,
+    SsbMethod, DEFAULT_AUDIO_RATE_HZ,
 };
 pub use detector::{Detector, DetectorContext, ModeDetector};
 pub use diode::{capacitor_voltage, diode_step, DiodeConfig, DiodeDetector};

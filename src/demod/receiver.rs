@@ -29,6 +29,10 @@ pub struct Measurements {
     pub modulation_depth: Option<ModulationDepth>,
     /// IQ samples the noise blanker set to zero; `None` without a noise blanker.
     pub blanked_samples: Option<u64>,
+    /// Channel SNR estimate in dB, every mode: the emission's power in its band over the
+    /// noise in the message bandwidth ([`super::channel_snr`]); `None` when nothing stands
+    /// above the noise floor or the floor cannot be read.
+    pub snr_db: Option<f64>,
     /// Things the user should know (overmodulation, no carrier found, ...).
     pub warnings: Vec<String>,
 }

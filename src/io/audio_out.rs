@@ -39,12 +39,40 @@ pub struct WavAudioSink {
 /// count (3 × u64) and a table length (u32) (EBU Tech 3306 §3.3).
 const DS64_BODY: usize = 28;
 
+/// How a WAV file stores its samples.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum WavEncoding {
+    /// 32-bit IEEE float, full scale ±1.0 (nothing is clipped).
+    #[default]
+    Float32,
+    /// 16-bit PCM: scaled by 32768, rounded to nearest, clipped to −32768..=32767.
+    Pcm16,
+}
+
 impl WavAudioSink {
-    /// Creates `path` for `channels` channels at `sample_rate`; 32-bit float unless `pcm16`.
+    /// Creates `path` for `channels` channels at `sample_rate`, samples stored as `encoding`.
     ///
-    /// 16-bit PCM scales by 32768, rounds to nearest and clips to −32768..=32767.
-    pub fn create(path: &Path, sample_rate: u32, channels: u16, pcm16: bool) -> Result<Self> {
-        Self::create_checked(path, &[], sample_rate, channels, pcm16)
+    /// ```no_run
+    /// use amrx::io::{AudioSink, WavAudioSink, WavEncoding};
+    /// # fn main() -> amrx::Result<()> {
+    /// let mut sink = WavAudioSink::create("out.wav".as_ref(), 48_000, 1, WavEncoding::Float32)?;
+    /// sink.write(&[0.0, 0.25, -0.25])?;
+    /// sink.finish()?;
+    /// # Ok(())
+    /// # }
+    /// ```
+    pub fn create(
+        path: &Path,
+        sample_rate: u32,
+        channels: u16,
+        encoding: WavEncoding,
+    ) -> Result<Self> {
+        Self::create_checked(path, &[], sample_rate, channels, encoding)
+    }
+
+    /// Finishes the file (see [`AudioSink::finish`]); callable on the sink itself, unboxed.
+    pub fn finish(self) -> Result<()> {
+        AudioSink::finish(Box::new(self))
     }
 
     /// As [`WavAudioSink::create`], refusing a `path` that is one of `inputs`.
@@ -53,8 +81,9 @@ impl WavAudioSink {
         inputs: &[&Path],
         sample_rate: u32,
         channels: u16,
-        pcm16: bool,
+        encoding: WavEncoding,
     ) -> Result<Self> {
+        let pcm16 = encoding == WavEncoding::Pcm16;
         if sample_rate == 0 {
             return Err(Error::parameter("audio_rate", 0, "must be positive"));
         }

@@ -1,6 +1,8 @@
 //! Input and output: IQ sources (SigMF, IQ WAV, raw files and standard input) and audio sinks.
 
+pub mod adapt;
 pub mod audio_out;
+pub mod destination;
 pub mod format;
 mod frames;
 pub mod open;
@@ -9,7 +11,9 @@ pub mod raw;
 pub mod sigmf;
 pub mod wav_iq;
 
-pub use audio_out::{AudioSink, RawAudioSink, WavAudioSink};
+pub use adapt::{adapt_source, StreamOptions};
+pub use audio_out::{AudioSink, RawAudioSink, WavAudioSink, WavEncoding};
+pub use destination::check_destination;
 pub use format::SampleFormat;
 pub use open::{open_input, InputOptions};
 pub use output::{check_not_input, OutputFile};
@@ -50,4 +54,8 @@ pub trait IqSource: Send {
     fn info(&self) -> &SourceInfo;
     /// Warnings gathered so far (non-finite samples replaced, trailing bytes ignored, ...).
     fn warnings(&self) -> Vec<String>;
+    /// What the recording says is in it (SigMF annotations); none for most sources.
+    fn annotations(&self) -> &[SigmfAnnotation] {
+        &[]
+    }
 }

@@ -214,11 +214,33 @@ pub fn temp_path(target: &Path) -> PathBuf {
 mod tests {
     use super::*;
 
-    fn dir(name: &str) -> PathBuf {
+    /// A test folder, removed with all it holds when dropped.
+    struct Scratch(PathBuf);
+
+    impl std::ops::Deref for Scratch {
+        type Target = PathBuf;
+        fn deref(&self) -> &PathBuf {
+            &self.0
+        }
+    }
+
+    impl AsRef<Path> for Scratch {
+        fn as_ref(&self) -> &Path {
+            &self.0
+        }
+    }
+
+    impl Drop for Scratch {
+        fn drop(&mut self) {
+            let _ = std::fs::remove_dir_all(&self.0);
+        }
+    }
+
+    fn dir(name: &str) -> Scratch {
         let d = std::env::temp_dir().join(format!("amrx-output-{name}-{}", std::process::id()));
         let _ = std::fs::remove_dir_all(&d);
         std::fs::create_dir_all(&d).unwrap();
-        d
+        Scratch(d)
     }
 
     #[test]

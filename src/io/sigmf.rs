@@ -116,6 +116,9 @@ impl IqSource for SigmfSource {
         warnings.extend(self.frames.warnings());
         warnings
     }
+    fn annotations(&self) -> &[SigmfAnnotation] {
+        &self.annotations
+    }
 }
 
 /// The base name of a SigMF pair if `path` names one: `NAME.sigmf-meta`, `NAME.sigmf-data`,
@@ -257,7 +260,7 @@ fn resolve_rate(
 }
 
 /// A SigMF annotation describing one emission in a recording.
-#[derive(Debug, Clone, PartialEq, Default)]
+#[derive(Debug, Clone, PartialEq, Default, serde::Serialize)]
 pub struct SigmfAnnotation {
     /// First sample of the emission.
     pub sample_start: u64,

@@ -28,20 +28,7 @@ impl WavIqSource {
         let file = File::open(path).map_err(|e| Error::io(path, e))?;
         let reader = hound::WavReader::new(BufReader::new(file)).map_err(|e| wav_error(path, e))?;
         let spec = reader.spec();
-        if spec.channels != 2 {
-            let word = if spec.channels == 1 {
-                "channel"
-            } else {
-                "channels"
-            };
-            return Err(Error::file(
-                path,
-                format!(
-                    "WAV has {} {word}; IQ needs 2 (I left, Q right)",
-                    spec.channels
-                ),
-            ));
-        }
+        check_channels(path, spec.channels)?;
         let values = u64::from(reader.len());
         let (file, data_bytes) = data_chunk(path, reader)?;
         if values == 0 {
@@ -100,6 +87,122 @@ impl WavIqSource {
             notes,
         })
     }
+}
+
+impl WavIqSource {
+    /// Reads a 2-channel IQ WAV from a stream (standard input): the header is parsed as it
+    /// arrives, then the data is streamed. A data length of 0 or 0xFFFFFFFF (what a writer
+    /// that cannot seek back leaves) means "to the end of the stream". `label` names the
+    /// stream in messages; `rate` overrides the header's rate.
+    pub fn from_stream(
+        reader: Box<dyn Read + Send>,
+        label: &Path,
+        rate: Option<f64>,
+    ) -> Result<Self> {
+        let (header, rest) = header_with_open_length(reader, label)?;
+        let joined: Box<dyn Read + Send> = Box::new(std::io::Cursor::new(header).chain(rest));
+        let wav = hound::WavReader::new(joined).map_err(|e| wav_error(label, e))?;
+        let spec = wav.spec();
+        check_channels(label, spec.channels)?;
+        let container = spec.bits_per_sample.div_ceil(8);
+        let values = u64::from(wav.len());
+        let data_bytes = values * u64::from(container);
+        let (codec, datatype) = codec_for(label, spec, container)?;
+        let (sample_rate, notes) = resolve_rate(f64::from(spec.sample_rate), rate, label)?;
+        // hound takes 0xFFFFFFFF bytes as that many samples; both placeholders mean "unknown".
+        let known = values > 0 && data_bytes < 0xFFFF_F000;
+        let mut frames = FrameReader::new(
+            Box::new(wav.into_inner()),
+            label,
+            codec,
+            1,
+            0,
+            known.then_some(data_bytes),
+        );
+        if frames.is_empty()? {
+            return Err(no_samples(label, 0, 2 * usize::from(container)));
+        }
+        let info = SourceInfo {
+            path: label.to_path_buf(),
+            datatype: datatype.to_string(),
+            sample_rate,
+            centre_frequency: None,
+            total_samples: known.then_some(values / 2),
+            num_channels: 1,
+            channel: 0,
+        };
+        Ok(WavIqSource {
+            info,
+            frames,
+            notes,
+        })
+    }
+}
+
+/// Chunks before the data larger than this are refused on a stream (a header is a few hundred
+/// bytes; common practice, no source).
+const MAX_HEADER_CHUNK: u32 = 1 << 24;
+
+/// Reads a WAV stream's header up to and including the data chunk's length, which is set to 0
+/// when it is a placeholder (0xFFFFFFFF, or not a whole number of frames) that hound refuses.
+fn header_with_open_length(
+    mut reader: Box<dyn Read + Send>,
+    label: &Path,
+) -> Result<(Vec<u8>, Box<dyn Read + Send>)> {
+    let io = |e| Error::io(label, e);
+    let mut header = vec![0u8; 12];
+    reader.read_exact(&mut header).map_err(io)?;
+    loop {
+        let mut chunk = [0u8; 8];
+        if let Err(e) = reader.read_exact(&mut chunk) {
+            return Err(Error::file(
+                label,
+                format!("not a usable WAV stream: it ends before its data chunk ({e})"),
+            ));
+        }
+        let len = u32::from_le_bytes([chunk[4], chunk[5], chunk[6], chunk[7]]);
+        if &chunk[..4] == b"data" {
+            let open = len == u32::MAX || len % 2 != 0;
+            if open {
+                chunk[4..].copy_from_slice(&[0; 4]);
+            }
+            header.extend_from_slice(&chunk);
+            return Ok((header, reader));
+        }
+        if len > MAX_HEADER_CHUNK {
+            return Err(Error::file(
+                label,
+                format!(
+                    "not a usable WAV stream: a {len}-byte '{}' chunk before the data",
+                    String::from_utf8_lossy(&chunk[..4])
+                ),
+            ));
+        }
+        header.extend_from_slice(&chunk);
+        let padded = u64::from(len) + u64::from(len % 2);
+        let before = header.len();
+        (&mut reader)
+            .take(padded)
+            .read_to_end(&mut header)
+            .map_err(io)?;
+        if ((header.len() - before) as u64) < padded {
+            return Err(Error::file(
+                label,
+                "not a usable WAV stream: it ends inside its header",
+            ));
+        }
+    }
+}
+
+fn check_channels(path: &Path, channels: u16) -> Result<()> {
+    if channels == 2 {
+        return Ok(());
+    }
+    let word = if channels == 1 { "channel" } else { "channels" };
+    Err(Error::file(
+        path,
+        format!("WAV has {channels} {word}; IQ needs 2 (I left, Q right)"),
+    ))
 }
 
 /// Maps hound's errors: I/O stays I/O, the rest is a bad file.

@@ -34,6 +34,20 @@ fn loss_statement(curve: &super::sweep::Curve, loss: f64) -> String {
     }
 }
 
+/// The channel SNRs actually measured within [from_db, to_db], in words: "20.0…22.0 dB
+/// (2 points)"; `None` with fewer than two points there.
+fn measured_span(curve: &super::sweep::Curve, from_db: f64, to_db: f64) -> Option<String> {
+    let inside: Vec<f64> = curve
+        .points
+        .iter()
+        .map(|p| p.channel_snr_db)
+        .filter(|x| (from_db..=to_db).contains(x))
+        .collect();
+    let low = inside.iter().copied().fold(f64::INFINITY, f64::min);
+    let high = inside.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    (inside.len() >= 2).then(|| format!("{low:.1}…{high:.1} dB ({} points)", inside.len()))
+}
+
 /// One line per finding: where each detector falls 1 dB and 3 dB below its theory, and its
 /// slopes below and above threshold, where the sweep covers them.
 pub fn summary_lines(result: &SweepResult) -> Vec<String> {
@@ -53,17 +67,17 @@ pub fn summary_lines(result: &SweepResult) -> Vec<String> {
         }
         let (low, high) = SQUARE_LAW_SPAN_DB;
         let floor = result.measurement_floor_db();
-        match curve.slope(low, high) {
-            Some(s) if curve.clear_of(floor, FLOOR_MARGIN_DB, low, high) => {
-                lines.push(format!("  slope over channel SNR {low}…{high} dB: {s:.2} dB/dB"))
+        match (curve.slope(low, high), measured_span(curve, low, high)) {
+            (Some(s), Some(span)) if curve.clear_of(floor, FLOOR_MARGIN_DB, low, high) => {
+                lines.push(format!("  slope over channel SNR {span}: {s:.2} dB/dB"))
             }
-            Some(_) => lines.push(format!(
-                "  slope over channel SNR {low}…{high} dB not read: within {FLOOR_MARGIN_DB} dB of the measurement floor ({floor:.1} dB); use longer trials or a wider --bandwidth"
+            (Some(_), Some(span)) => lines.push(format!(
+                "  slope over channel SNR {span} not read: within {FLOOR_MARGIN_DB} dB of the measurement floor ({floor:.1} dB); use longer trials or a wider --bandwidth"
             )),
-            None => {}
+            _ => {}
         }
-        if let Some(s) = curve.slope(20.0, 30.0) {
-            lines.push(format!("  slope over channel SNR 20…30 dB: {s:.2} dB/dB"));
+        if let (Some(s), Some(span)) = (curve.slope(20.0, 30.0), measured_span(curve, 20.0, 30.0)) {
+            lines.push(format!("  slope over channel SNR {span}: {s:.2} dB/dB"));
         }
     }
     lines

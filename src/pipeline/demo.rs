@@ -5,9 +5,10 @@
 //! centre, IQ gain and phase imbalance, and 8-bit quantisation, on top of white noise.
 
 use super::job::{run_demod, AudioTarget, DemodRequest, Tuning};
+use super::progress::Progress;
 use super::report::Report;
-use super::synth_job::write_scene;
-use crate::demod::Mode;
+use super::synth_job::write_scene_with_progress;
+use crate::demod::{AudioLevel, Mode};
 use crate::measure::{estimate_tone_hz, sinad_db};
 use crate::synth::emission::{EmissionSpec, MessageSpec, ModeSpec};
 use crate::synth::scene::Scene;
@@ -99,18 +100,52 @@ fn receive_mode(mode: ModeSpec) -> Mode {
 
 /// Writes the scene into `dir`, receives every station, and returns one row per reception.
 pub fn run_demo(dir: &Path) -> Result<(PathBuf, Vec<DemoRow>)> {
+    run_demo_with_progress(dir, &|_| {})
+}
+
+/// As [`run_demo`], calling `progress` as it goes: the samples generated plus the samples
+/// received so far, out of the scene's length times one more than the number of receptions.
+pub fn run_demo_with_progress(
+    dir: &Path,
+    progress: &(dyn Fn(Progress) + Sync),
+) -> Result<(PathBuf, Vec<DemoRow>)> {
     std::fs::create_dir_all(dir).map_err(|e| Error::io(dir, e))?;
     let scene = demo_scene()?;
-    let summary = write_scene(
+    let stations = demo_stations(&scene);
+    let length = scene.total_samples();
+    let total = Some(length * (1 + stations.len() as u64));
+    let summary = write_scene_with_progress(
         &scene,
         Path::new(DEMO_ORIGIN),
         dir,
         &dir.join("demo-scene"),
         None,
+        &|p| {
+            progress(Progress {
+                done: p.done,
+                total,
+            })
+        },
     )?;
-    let rows = demo_stations(&scene)
+    let rows = stations
         .into_iter()
-        .map(|station| receive_station(&summary.meta_path, dir, scene.centre_frequency, station))
+        .enumerate()
+        .map(|(k, station)| {
+            let before = length * (1 + k as u64);
+            let step = |p: Progress| {
+                progress(Progress {
+                    done: before + p.done,
+                    total,
+                })
+            };
+            receive_station(
+                &summary.meta_path,
+                dir,
+                scene.centre_frequency,
+                station,
+                &step,
+            )
+        })
         .collect::<Result<Vec<_>>>()?;
     Ok((summary.meta_path, rows))
 }
@@ -120,6 +155,7 @@ fn receive_station(
     dir: &Path,
     centre_hz: f64,
     station: DemoStation,
+    progress: &(dyn Fn(Progress) + Sync),
 ) -> Result<DemoRow> {
     let wav = dir.join(format!(
         "{}-{}.wav",
@@ -135,8 +171,10 @@ fn receive_station(
         },
     );
     request.tuning = Tuning::Carrier(centre_hz + station.offset_hz);
+    // The demo's audio is for listening.
+    request.options.agc = Some(AudioLevel::Listening.agc(station.mode));
     request.report = Some(wav.with_extension("json"));
-    let report = run_demod(&request, &|_| {})?;
+    let report = run_demod(&request, progress)?;
     let outcome = Ok(measure_audio(report, wav, station.tone_hz)?);
     Ok(DemoRow { station, outcome })
 }

@@ -1,11 +1,13 @@
 //! The receive job: open the input, build the mode's receiver, stream to the audio sink, report.
 
 use super::live::{sound_input_name, Controlled, LiveControl, SoundSession, TeeSink};
+use super::progress::Progress;
 use super::report::Report;
 use super::runtime::{run_stream, RuntimeConfig};
 use crate::demod::{build_receiver, Mode, Receiver, ReceiverConfig, ReceiverOptions};
 use crate::io::{
-    check_not_input, open_input, AudioSink, InputOptions, IqSource, RawAudioSink, WavAudioSink,
+    check_destination, check_not_input, open_input, AudioSink, InputOptions, IqSource,
+    RawAudioSink, WavAudioSink, WavEncoding,
 };
 use crate::{Error, Result};
 use std::path::{Path, PathBuf};
@@ -83,8 +85,9 @@ impl DemodRequest {
 
 /// Runs a request to the end and returns its report (also written to `request.report`).
 ///
-/// `progress` is called from the reading thread with the number of samples read so far.
-pub fn run_demod(request: &DemodRequest, progress: &(dyn Fn(u64) + Sync)) -> Result<Report> {
+/// `progress` is called from the reading thread with the input samples read so far and,
+/// when the input's length is known, the total to read.
+pub fn run_demod(request: &DemodRequest, progress: &(dyn Fn(Progress) + Sync)) -> Result<Report> {
     run_demod_until(request, progress, &AtomicBool::new(false))
 }
 
@@ -100,7 +103,7 @@ pub const INTERRUPTED_WARNING: &str = "the run was interrupted";
 /// (and, for SigMF, both of its files) by file identity before anything is written.
 pub fn run_demod_until(
     request: &DemodRequest,
-    progress: &(dyn Fn(u64) + Sync),
+    progress: &(dyn Fn(Progress) + Sync),
     stop: &AtomicBool,
 ) -> Result<Report> {
     run_demod_live(request, progress, stop, &LiveControl::default())
@@ -114,14 +117,26 @@ pub fn run_demod_until(
 /// `underruns`, `overruns`, `stream_errors` and, once measured, `clock_ppm`.
 pub fn run_demod_live(
     request: &DemodRequest,
-    progress: &(dyn Fn(u64) + Sync),
+    progress: &(dyn Fn(Progress) + Sync),
     stop: &AtomicBool,
     control: &LiveControl,
 ) -> Result<Report> {
+    if let AudioTarget::Wav { path, .. } = &request.audio {
+        check_destination(path, &["wav", "wave"], "audio")?;
+    }
+    if let Some(report) = &request.report {
+        check_destination(report, &["json"], "the report")?;
+    }
     let mut sound = SoundSession::default();
     let live_input = sound_input_name(&request.input);
     let mut source = match live_input {
-        Some(name) => sound.open_source(name, request.input_options.rate)?,
+        Some(name) => {
+            request.input_options.stream.validate()?;
+            crate::io::adapt_source(
+                sound.open_source(name, request.input_options.rate)?,
+                &request.input_options.stream,
+            )?
+        }
         None => open_input(&request.input, &request.input_options)?,
     };
     let input_files = input_files(&request.input, &source.info().path);
@@ -165,7 +180,9 @@ pub fn run_demod_live(
     let input_rate = source.info().sample_rate;
     let channels = receiver.audio_channels().max(1);
     let mut aligned = Alignment::new(receiver.as_ref());
+    let mut level = AudioLevelMeter::default();
     let input_total = AtomicU64::new(u64::MAX);
+    let expected = source.info().total_samples;
     let mut read_so_far = 0u64;
     let mut interrupted = false;
     let totals = run_stream(
@@ -177,14 +194,21 @@ pub fn run_demod_live(
             }
             let n = source.read(buf)?;
             read_so_far += n as u64;
-            progress(read_so_far);
+            progress(Progress {
+                done: read_so_far,
+                total: expected,
+            });
             if n == 0 {
                 input_total.store(read_so_far, Ordering::Release);
             }
             Ok(n)
         },
         &mut Controlled::new(receiver.as_mut(), control, input_rate),
-        |audio| sink.write(aligned.keep(audio, input_total.load(Ordering::Acquire))),
+        |audio| {
+            let kept = aligned.keep(audio, input_total.load(Ordering::Acquire));
+            level.push(kept);
+            sink.write(kept)
+        },
         runtime,
     )?;
     sink.finish()?;
@@ -196,6 +220,8 @@ pub fn run_demod_live(
         totals.samples_in,
         aligned.written * channels as u64,
     );
+    report.audio_rms_dbfs = level.rms_dbfs();
+    report.audio_peak_dbfs = level.peak_dbfs();
     let last_offset = receiver.offset_hz();
     if last_offset != offset_hz {
         report.warnings.push(format!(
@@ -287,6 +313,35 @@ impl Alignment {
     }
 }
 
+/// RMS and peak of the audio written.
+#[derive(Debug, Default)]
+struct AudioLevelMeter {
+    sum_squares: f64,
+    peak: f32,
+    count: u64,
+}
+
+impl AudioLevelMeter {
+    fn push(&mut self, audio: &[f32]) {
+        for &x in audio {
+            self.sum_squares += f64::from(x) * f64::from(x);
+            self.peak = self.peak.max(x.abs());
+        }
+        self.count += audio.len() as u64;
+    }
+
+    /// `None` without audio or for digital silence (no finite level to give).
+    fn rms_dbfs(&self) -> Option<f64> {
+        let db = 10.0 * (self.sum_squares / self.count.max(1) as f64).log10();
+        db.is_finite().then_some(db)
+    }
+
+    fn peak_dbfs(&self) -> Option<f64> {
+        let db = 20.0 * f64::from(self.peak).log10();
+        db.is_finite().then_some(db)
+    }
+}
+
 /// The carrier's offset from the recording centre for this tuning.
 pub fn resolve_offset(tuning: Tuning, source: &dyn IqSource) -> Result<f64> {
     match tuning {
@@ -296,7 +351,7 @@ pub fn resolve_offset(tuning: Tuning, source: &dyn IqSource) -> Result<f64> {
             Some(centre) => Ok(carrier - centre),
             None => Err(Error::file(
                 &source.info().path,
-                "the recording has no centre frequency (core:frequency); use --offset instead of --carrier",
+                "the recording has no centre frequency (core:frequency); give it with --centre, or tune with --offset",
             )),
         },
     }
@@ -329,8 +384,13 @@ fn open_sink(
         AudioTarget::Wav { path, pcm16 } => {
             let rate = receiver.audio_rate().round() as u32;
             let channels = receiver.audio_channels() as u16;
+            let encoding = if *pcm16 {
+                WavEncoding::Pcm16
+            } else {
+                WavEncoding::Float32
+            };
             Box::new(WavAudioSink::create_checked(
-                path, inputs, rate, channels, *pcm16,
+                path, inputs, rate, channels, encoding,
             )?)
         }
         AudioTarget::Stdout => Box::new(RawAudioSink::try_stdout()?),
@@ -369,6 +429,9 @@ fn make_report(
         carrier_dbfs: measured.carrier_dbfs,
         carrier_present_s: measured.carrier_present_s,
         modulation_depth: measured.modulation_depth,
+        snr_db: measured.snr_db,
+        audio_rms_dbfs: None,
+        audio_peak_dbfs: None,
         warnings,
         blanked_samples: measured.blanked_samples,
         underruns: None,
@@ -382,4 +445,27 @@ fn make_report(
 
 fn display_path(path: &Path) -> String {
     path.display().to_string()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn audio_level_of_a_full_scale_sine_is_minus_3_dbfs_rms_and_0_peak() {
+        // The RMS of a sine of peak A is A/√2 (−3.01 dB); common knowledge, no source needed.
+        let sine: Vec<f32> = (0..48_000)
+            .map(|n| (std::f64::consts::TAU * 1000.0 * n as f64 / 48_000.0).sin() as f32)
+            .collect();
+        let mut meter = AudioLevelMeter::default();
+        for piece in sine.chunks(777) {
+            meter.push(piece);
+        }
+        assert!((meter.rms_dbfs().unwrap() + 3.0103).abs() < 1e-3);
+        assert!(meter.peak_dbfs().unwrap().abs() < 1e-6);
+        let mut silent = AudioLevelMeter::default();
+        assert_eq!(silent.rms_dbfs(), None);
+        silent.push(&[0.0; 10]);
+        assert_eq!((silent.rms_dbfs(), silent.peak_dbfs()), (None, None));
+    }
 }

@@ -2,6 +2,7 @@
 //! windows turned into events and a verdict ([`Timeline`]).
 
 use super::job::{resolve_offset, Tuning};
+use super::progress::Progress;
 use crate::demod::{build_receiver, Mode, ReceiverConfig, ReceiverOptions};
 use crate::io::{open_input, InputOptions};
 use crate::measure::carrier_meter::DEFAULT_WINDOW_S;
@@ -91,20 +92,21 @@ pub fn check_outputs(input: &Path, outputs: &[&Path]) -> Result<()> {
 }
 
 /// Runs the request: an envelope (am) receiver measures every window; `progress` gets the
-/// samples read so far.
-pub fn run_measure(request: &MeasureRequest, progress: &dyn Fn(u64)) -> Result<MeasureOutcome> {
+/// samples read so far (and the total, when known).
+pub fn run_measure(
+    request: &MeasureRequest,
+    progress: &dyn Fn(Progress),
+) -> Result<MeasureOutcome> {
     let start_s = seconds("start_s", request.start_s)?;
-    let duration_s = request
-        .duration_s
-        .map(|d| seconds("duration_s", d))
-        .transpose()?;
     limit("limit_positive", request.limits.positive)?;
     limit("limit_negative", request.limits.negative)?;
-    let mut source = open_input(&request.input, &request.input_options)?;
-    let rate = source.info().sample_rate;
+    let mut input_options = request.input_options.clone();
+    input_options.stream.start_s = start_s;
+    input_options.stream.duration_s = request.duration_s;
+    let mut source = open_input(&request.input, &input_options)?;
     let offset_hz = resolve_offset(request.tuning, source.as_ref())?;
     let config = ReceiverConfig {
-        input_rate: rate,
+        input_rate: source.info().sample_rate,
         offset_hz,
         options: ReceiverOptions {
             bandwidth_hz: request.bandwidth_hz,
@@ -115,43 +117,18 @@ pub fn run_measure(request: &MeasureRequest, progress: &dyn Fn(u64)) -> Result<M
     receiver.set_meter_window(request.window_s)?;
     receiver.record_windows(true);
     let mut buf = vec![Complex32::default(); READ_LEN];
-    let mut skip = (start_s * rate).round() as u64;
-    let mut left = duration_s.map(|d| (d * rate).round() as u64);
     let mut read = 0u64;
-    while skip > 0 {
-        let n = source.read(&mut buf[..READ_LEN.min(skip as usize)])?;
-        if n == 0 {
-            break;
-        }
-        skip -= n as u64;
-        read += n as u64;
-        progress(read);
-    }
-    if skip > 0 {
-        return Err(Error::parameter(
-            "start_s",
-            start_s,
-            format!(
-                "lies beyond the end of the input ({:.3} s)",
-                read as f64 / rate
-            ),
-        ));
-    }
     let mut audio = vec![0.0f32; receiver.max_output_len(READ_LEN)];
     loop {
-        let want = left.map_or(READ_LEN, |l| READ_LEN.min(l as usize));
-        if want == 0 {
-            break;
-        }
-        let n = source.read(&mut buf[..want])?;
+        let n = source.read(&mut buf)?;
         if n == 0 {
             break;
         }
         read += n as u64;
-        progress(read);
-        if let Some(l) = left.as_mut() {
-            *l -= n as u64;
-        }
+        progress(Progress {
+            done: read,
+            total: source.info().total_samples,
+        });
         let mut at = 0;
         while at < n {
             let (c, _) = receiver.process(&buf[at..n], &mut audio);

@@ -5,6 +5,7 @@ pub mod info;
 pub mod job;
 pub mod live;
 pub mod measure_job;
+pub mod progress;
 pub mod report;
 pub mod runtime;
 pub mod synth_job;
@@ -15,5 +16,6 @@ pub use job::{
 };
 pub use live::{LiveControl, LiveStatus, BUILD_WITH_SOUND};
 pub use measure_job::{check_outputs, run_measure, MeasureOutcome, MeasureRequest};
+pub use progress::Progress;
 pub use report::Report;
 pub use runtime::{run_stream, RunTotals, RuntimeConfig};

@@ -47,6 +47,15 @@ pub struct Report {
     pub carrier_present_s: Option<f64>,
     /// Peak modulation depth as fractions, over carrier-present time only, noise-corrected.
     pub modulation_depth: Option<ModulationDepth>,
+    /// Channel SNR estimate in dB, every mode: the emission's power in its band over the noise
+    /// in `bandwidth_hz` (the definition `synth` uses: S/(N0·W)); `null` when nothing stands
+    /// above the noise floor.
+    pub snr_db: Option<f64>,
+    /// RMS level of the audio written, dBFS (full scale ±1.0: a full-scale sine reads
+    /// −3.0 dBFS), over the whole audio including the receiver's settling; `null` without audio.
+    pub audio_rms_dbfs: Option<f64>,
+    /// Largest absolute audio sample written, dBFS; `null` without audio.
+    pub audio_peak_dbfs: Option<f64>,
     /// Warnings for the user.
     pub warnings: Vec<String>,
     /// IQ samples the noise blanker set to zero; `null` without `--noise-blanker`.

@@ -7,6 +7,7 @@
 //! frequency error and drift, the carrier is given at the emission's start and the edges span
 //! the whole drift.
 
+use super::progress::Progress;
 use crate::io::{SampleFormat, SigmfAnnotation, SigmfWriter};
 use crate::synth::scene::{scene_dir, Scene, SceneGenerator};
 use crate::synth::EmissionSpec;
@@ -88,6 +89,18 @@ pub fn run_scene_limited(
     datatype: Option<SampleFormat>,
     max_samples: u64,
 ) -> Result<SceneSummary> {
+    run_scene_with_progress(scene_path, out_base, datatype, max_samples, &|_| {})
+}
+
+/// As [`run_scene_limited`], calling `progress` with the samples written so far and the
+/// scene's total after every piece.
+pub fn run_scene_with_progress(
+    scene_path: &Path,
+    out_base: &Path,
+    datatype: Option<SampleFormat>,
+    max_samples: u64,
+    progress: &dyn Fn(Progress),
+) -> Result<SceneSummary> {
     let scene = Scene::load(scene_path)?;
     let samples = scene.total_samples();
     if samples > max_samples {
@@ -113,12 +126,13 @@ pub fn run_scene_limited(
     for suffix in [".sigmf-data", ".sigmf-meta"] {
         crate::io::check_not_input(Path::new(&format!("{base}{suffix}")), &[scene_path])?;
     }
-    write_scene(
+    write_scene_with_progress(
         &scene,
         scene_path,
         &scene_dir(scene_path),
         out_base,
         datatype,
+        progress,
     )
 }
 
@@ -131,7 +145,21 @@ pub fn write_scene(
     out_base: &Path,
     datatype: Option<SampleFormat>,
 ) -> Result<SceneSummary> {
+    write_scene_with_progress(scene, origin, base_dir, out_base, datatype, &|_| {})
+}
+
+/// As [`write_scene`], calling `progress` with the samples written so far and the scene's
+/// total after every piece.
+pub fn write_scene_with_progress(
+    scene: &Scene,
+    origin: &Path,
+    base_dir: &Path,
+    out_base: &Path,
+    datatype: Option<SampleFormat>,
+    progress: &dyn Fn(Progress),
+) -> Result<SceneSummary> {
     let scene_path = origin;
+    let total = scene.total_samples();
     let format = match datatype {
         Some(f) if f.is_complex() => f,
         Some(f) => {
@@ -169,6 +197,10 @@ pub fn write_scene(
             .filter(|z| z.re.abs() > 1.0 || z.im.abs() > 1.0)
             .count() as u64;
         writer.write(&piece[..n])?;
+        progress(Progress {
+            done: writer.samples_written(),
+            total: Some(total),
+        });
     }
     let summary = SceneSummary {
         meta_path: writer.meta_path().to_path_buf(),

@@ -7,12 +7,10 @@ use amrx::synth::AmToneTransmitter;
 use amrx::Complex32;
 use std::path::{Path, PathBuf};
 
-/// A fresh, empty folder for one test, under the system's temp folder.
-pub fn scratch_dir(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("amrx-test-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).expect("temp folder is writable");
-    dir
+/// A fresh, empty folder for one test, under the system's temp folder, removed (with all it
+/// holds) when the returned value is dropped.
+pub fn scratch_dir(name: &str) -> TempDir {
+    TempDir::new(name)
 }
 
 /// Tone-modulated full-carrier AM with optional noise of power `noise_power`.
@@ -92,6 +90,19 @@ impl TempDir {
     /// A file inside the directory.
     pub fn path(&self, file: &str) -> PathBuf {
         self.0.join(file)
+    }
+}
+
+impl std::ops::Deref for TempDir {
+    type Target = Path;
+    fn deref(&self) -> &Path {
+        &self.0
+    }
+}
+
+impl AsRef<Path> for TempDir {
+    fn as_ref(&self) -> &Path {
+        &self.0
     }
 }
 
