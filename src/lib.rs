@@ -37,6 +37,7 @@
 //! - [`demod`]: the receiver assembly, the mode table and every mode's detector.
 //! - [`sync`]: carrier recovery loops.
 //! - [`io`]: SigMF, IQ WAV and raw inputs; WAV and raw audio outputs.
+//! - `sound` (feature `sound`): sound-card audio out and IQ in.
 //! - [`measure`]: spectra, CNR, modulation depth, tone frequency, SINAD.
 //! - [`synth`]: test-signal generation (messages, modulators, scenes).
 //! - [`channel`]: the channel simulator (noise, fading, drift, impairments).
@@ -50,6 +51,7 @@
 //! |---|---|---|---|
 //! | `cli` | on | the `amrx` command-line binary; turns on `lab` | clap, indicatif |
 //! | `lab` | via `cli` | the noise lab's parallel sweep (`lab::run_sweep`) and PNG charts (`lab::write_png`) | rayon, plotters |
+//! | `sound` | off | the `sound` module: sound-card audio out (`demod --play`), sound-card IQ in (`sound:NAME`), `amrx devices`; building needs the system's ALSA headers (Debian `libasound2-dev`) | cpal, ringbuf, alsa |
 //!
 //! With `default-features = false` the receiver core remains: every block, receiver, input,
 //! output, measurement, the signal generator, the channel simulator, the threaded runtime and
@@ -86,6 +88,8 @@ pub mod lab;
 pub mod measure;
 pub mod pipeline;
 pub mod sample;
+#[cfg(feature = "sound")]
+pub mod sound;
 pub mod sync;
 pub mod synth;
 

@@ -12,8 +12,8 @@ use amrx::measure::Limits;
 use amrx::pipeline::demo::{default_demo_dir, run_demo_with_progress, DemoRow};
 use amrx::pipeline::synth_job::{run_scene_with_progress, DEFAULT_MAX_SAMPLES};
 use amrx::pipeline::{
-    check_outputs, info, run_demod_until, run_measure, AudioTarget, DemodRequest, MeasureRequest,
-    Progress, Tuning,
+    check_outputs, info, run_demod_live, run_measure, AudioTarget, DemodRequest, LiveControl,
+    MeasureRequest, Progress, Tuning,
 };
 use amrx::Error;
 use clap::{Args, CommandFactory, Parser, Subcommand, ValueEnum};
@@ -66,6 +66,8 @@ enum Command {
     },
     /// Measure detectors' output SNR against input SNR in noise, with theory overlaid.
     Sweep(SweepArgs),
+    /// List the sound cards' inputs and outputs with their rates and channel counts.
+    Devices,
     /// Show the help of amrx or of one of its commands.
     Help {
         /// The command to explain (all commands when absent).
@@ -140,7 +142,8 @@ struct ScanArgs {
 
 #[derive(Args, Debug)]
 struct DemodArgs {
-    /// The IQ input (NAME.sigmf-meta or NAME.sigmf-data, an IQ WAV, a raw file, or -).
+    /// The IQ input (NAME.sigmf-meta or NAME.sigmf-data, an IQ WAV, a raw file, -, or
+    /// sound:NAME for a sound card's stereo input, left = I, right = Q; sound:default).
     input: PathBuf,
     /// Receive mode (the library's mode table: am, sam, dsb, usb, lsb, isb, vsb).
     #[arg(long, allow_negative_numbers = true, value_parser = parse_mode)]
@@ -197,8 +200,19 @@ struct DemodArgs {
     #[arg(long, allow_negative_numbers = true)]
     gain: Option<f64>,
     /// Output WAV file, or - for raw f32 on standard output.
-    #[arg(long, allow_negative_numbers = true)]
-    out: PathBuf,
+    #[arg(long, allow_negative_numbers = true, required_unless_present = "play")]
+    out: Option<PathBuf>,
+    /// Play the audio on the sound card (a file input is then paced to real time); type an
+    /// offset in Hz and Enter to retune, u/d [HZ] to step, q to stop.
+    #[arg(long)]
+    play: bool,
+    /// Sound-card output for --play (names from `amrx devices`; default: the system's).
+    #[arg(long, requires = "play")]
+    device: Option<String>,
+    /// Sound-card output latency in milliseconds for --play (default 30); raise it (e.g. 600)
+    /// if a busy machine makes the sound drop out.
+    #[arg(long, requires = "play", allow_negative_numbers = true)]
+    latency: Option<f64>,
     /// Write 16-bit PCM instead of 32-bit float.
     #[arg(long)]
     pcm16: bool,
@@ -403,6 +417,7 @@ fn main() -> ExitCode {
             quiet,
         } => synth(&scene, &out, datatype, allow_large, quiet).map(|()| 0),
         Command::Sweep(args) => sweep(&args).map(|()| 0),
+        Command::Devices => devices().map(|()| 0),
         Command::Help { command } => help(command.as_deref()).map(|()| 0),
         Command::Demo { dir, quiet } => {
             demo(dir.unwrap_or_else(default_demo_dir), quiet).map(|()| 0)
@@ -531,6 +546,7 @@ fn flag_for(parameter: &str) -> Option<&'static str> {
         "limit_positive" => "--limit-positive",
         "limit_negative" => "--limit-negative",
         "min_cnr_db" => "--min-cnr",
+        "latency_s" => "--latency (in ms)",
         _ => return None,
     })
 }
@@ -566,13 +582,13 @@ fn demod(args: DemodArgs) -> Result<u8, String> {
         (None, Some(carrier)) => Tuning::Carrier(carrier),
         (None, None) => Tuning::Centre,
     };
-    let audio = if args.out.as_os_str() == "-" {
-        AudioTarget::Stdout
-    } else {
-        AudioTarget::Wav {
-            path: args.out.clone(),
+    let audio = match &args.out {
+        None => AudioTarget::Nothing,
+        Some(out) if out.as_os_str() == "-" => AudioTarget::Stdout,
+        Some(out) => AudioTarget::Wav {
+            path: out.clone(),
             pcm16: args.pcm16,
-        }
+        },
     };
     let request = DemodRequest {
         input: args.input.clone(),
@@ -589,11 +605,30 @@ fn demod(args: DemodArgs) -> Result<u8, String> {
         options: receiver_options(&args),
         audio,
         report: args.report.clone(),
+        play: args
+            .play
+            .then(|| args.device.clone().unwrap_or_else(|| "default".to_string())),
+        play_latency_s: args.latency.map(|ms| ms / 1000.0),
     };
-    let bar = progress_bar(args.quiet, "demod");
-    let report = run_demod_until(&request, &|p| show_progress(&bar, p), &interruption.stop)
-        .map_err(|e| with_input(&args.input, e));
-    bar.finish_and_clear();
+    let live_input = args.input.to_str().is_some_and(|p| p.starts_with("sound:"));
+    let control = Arc::new(LiveControl::default());
+    let report = if args.play || live_input {
+        live::start(&args.input, &control, &interruption.stop, args.quiet);
+        let report = run_demod_live(&request, &|_| {}, &interruption.stop, &control);
+        live::done();
+        report
+    } else {
+        let bar = progress_bar(args.quiet, "demod");
+        let report = run_demod_live(
+            &request,
+            &|p| show_progress(&bar, p),
+            &interruption.stop,
+            &control,
+        );
+        bar.finish_and_clear();
+        report
+    }
+    .map_err(|e| with_input(&args.input, e));
     let report = report?;
     let code = interruption.exit_code();
     // --quiet hides the progress bar only: warnings (an interruption among them) always
@@ -1043,6 +1078,192 @@ fn sweep(args: &SweepArgs) -> Result<(), String> {
     }
     outln!(text, "wrote {} and {}", csv.display(), args.png.display());
     emit(&text)
+}
+
+#[cfg(feature = "sound")]
+fn devices() -> Result<(), String> {
+    // Probing runs every sound-system plugin, some of which (JACK's) print their own
+    // complaints on standard error: keep them off the terminal while the list is made.
+    let list = {
+        let _quiet = QuietStderr::new();
+        amrx::sound::list_devices()
+    }
+    .map_err(|e| e.to_string())?;
+    let mut text = String::new();
+    if list.is_empty() {
+        outln!(text, "no sound devices found");
+    }
+    let show = |c: &amrx::sound::Capability| {
+        let channels = match c.channels {
+            (lo, hi) if lo == hi => format!("{lo} ch"),
+            (lo, hi) => format!("{lo}-{hi} ch"),
+        };
+        let rates = match c.rates {
+            (lo, hi) if lo == hi => format!("{lo} Hz"),
+            (lo, hi) => format!("{lo}-{hi} Hz"),
+        };
+        format!("{channels}, {rates}, {}", c.formats.join(" "))
+    };
+    for d in &list {
+        let mut tags = Vec::new();
+        if d.default_input {
+            tags.push("default input");
+        }
+        if d.default_output {
+            tags.push("default output");
+        }
+        let tags = if tags.is_empty() {
+            String::new()
+        } else {
+            format!(" ({})", tags.join(", "))
+        };
+        outln!(text, "{}{tags}: {}", d.name, d.description);
+        if let Some(c) = &d.inputs {
+            outln!(text, "  in:  {}", show(c));
+        }
+        if let Some(c) = &d.outputs {
+            outln!(text, "  out: {}", show(c));
+        }
+    }
+    emit(&text)
+}
+
+/// Points standard error at /dev/null while alive.
+#[cfg(feature = "sound")]
+struct QuietStderr(Option<i32>);
+
+#[cfg(feature = "sound")]
+impl QuietStderr {
+    fn new() -> Self {
+        use std::os::fd::IntoRawFd;
+        let Ok(null) = std::fs::OpenOptions::new().write(true).open("/dev/null") else {
+            return QuietStderr(None);
+        };
+        let null = null.into_raw_fd();
+        // SAFETY: plain descriptor calls on descriptors this process owns.
+        unsafe {
+            let saved = libc::dup(2);
+            if saved >= 0 && libc::dup2(null, 2) >= 0 {
+                libc::close(null);
+                return QuietStderr(Some(saved));
+            }
+            libc::close(null);
+        }
+        QuietStderr(None)
+    }
+}
+
+#[cfg(feature = "sound")]
+impl Drop for QuietStderr {
+    fn drop(&mut self) {
+        if let Some(saved) = self.0 {
+            // SAFETY: restores the descriptor saved in `new`.
+            unsafe {
+                libc::dup2(saved, 2);
+                libc::close(saved);
+            }
+        }
+    }
+}
+
+#[cfg(not(feature = "sound"))]
+fn devices() -> Result<(), String> {
+    Err(amrx::pipeline::BUILD_WITH_SOUND.to_string())
+}
+
+/// The terminal side of a live run: standard-input commands (retune, step, stop) and a status
+/// line on standard error.
+mod live {
+    use super::*;
+    use std::io::{BufRead, Write};
+    use std::time::Duration;
+
+    static RUNNING: AtomicBool = AtomicBool::new(false);
+
+    /// Starts the command reader (unless the IQ itself comes from standard input) and the
+    /// status line (when standard error is a terminal and not `quiet`).
+    pub(super) fn start(
+        input: &Path,
+        control: &Arc<LiveControl>,
+        stop: &Arc<AtomicBool>,
+        quiet: bool,
+    ) {
+        RUNNING.store(true, Ordering::SeqCst);
+        let terminal = std::io::stderr().is_terminal() && !quiet;
+        if input != Path::new("-") {
+            if terminal {
+                eprintln!("amrx: type an offset in Hz and Enter to retune, u/d [HZ] to step (default 100), q to stop");
+            }
+            let (control, stop) = (Arc::clone(control), Arc::clone(stop));
+            std::thread::spawn(move || commands(&control, &stop));
+        }
+        if terminal {
+            let control = Arc::clone(control);
+            std::thread::spawn(move || status_line(&control));
+        }
+    }
+
+    /// Ends the status line.
+    pub(super) fn done() {
+        if RUNNING.swap(false, Ordering::SeqCst) && std::io::stderr().is_terminal() {
+            eprint!("\r\x1b[K");
+        }
+    }
+
+    fn commands(control: &LiveControl, stop: &AtomicBool) {
+        let stdin = std::io::stdin();
+        for line in stdin.lock().lines() {
+            let Ok(line) = line else { return };
+            let words: Vec<&str> = line.split_whitespace().collect();
+            let current = control.status().offset_hz.unwrap_or(0.0);
+            let step = |w: Option<&&str>| w.map_or(Some(100.0), |s| s.parse::<f64>().ok());
+            let target = match words.as_slice() {
+                [] => continue,
+                ["q"] | ["quit"] => {
+                    stop.store(true, Ordering::SeqCst);
+                    return;
+                }
+                ["u", rest @ ..] => step(rest.first()).map(|s| current + s),
+                ["d", rest @ ..] => step(rest.first()).map(|s| current - s),
+                [hz] => hz.parse::<f64>().ok(),
+                _ => None,
+            };
+            match target {
+                Some(hz) if hz.is_finite() => {
+                    control.retune(hz);
+                    std::thread::sleep(Duration::from_millis(200));
+                    if let Some(problem) = control.take_problem() {
+                        eprintln!("amrx: retune to {hz} Hz refused: {problem}");
+                    }
+                }
+                _ => eprintln!("amrx: '{line}': give an offset in Hz, u/d [HZ], or q"),
+            }
+        }
+    }
+
+    fn status_line(control: &LiveControl) {
+        while RUNNING.load(Ordering::SeqCst) {
+            std::thread::sleep(Duration::from_millis(500));
+            if !RUNNING.load(Ordering::SeqCst) {
+                break;
+            }
+            if let Some(problem) = control.take_problem() {
+                eprintln!("\ramrx: retune refused: {problem}\x1b[K");
+            }
+            let s = control.status();
+            let opt = |v: Option<f64>, unit: &str| {
+                v.map_or("-".to_string(), |x| format!("{x:.1} {unit}"))
+            };
+            eprint!(
+                "\r{:7.1} s  offset {}  audio {}  CNR {}\x1b[K",
+                s.seconds,
+                opt(s.offset_hz, "Hz"),
+                opt(s.audio_dbfs, "dBFS"),
+                opt(s.cnr_db, "dB")
+            );
+            let _ = std::io::stderr().flush();
+        }
+    }
 }
 
 fn demo(dir: PathBuf, quiet: bool) -> Result<(), String> {

@@ -31,6 +31,12 @@ pub struct InputOptions {
 /// overrides the suffix. `options.stream` (swap, start, duration, centre) then applies to
 /// whatever was opened ([`adapt_source`]).
 pub fn open_input(path: &Path, options: &InputOptions) -> Result<Box<dyn IqSource>> {
+    if path.to_str().is_some_and(|p| p.starts_with("sound:")) && !path.exists() {
+        return Err(Error::file(
+            path,
+            "a sound-card input is read by `amrx demod` (built with --features sound)",
+        ));
+    }
     options.stream.validate()?;
     let source = open_unadapted(path, options)?;
     adapt_source(source, &options.stream)

@@ -1,5 +1,6 @@
 //! The receive job: open the input, build the mode's receiver, stream to the audio sink, report.
 
+use super::live::{sound_input_name, Controlled, LiveControl, SoundSession, TeeSink};
 use super::progress::Progress;
 use super::report::Report;
 use super::runtime::{run_stream, RuntimeConfig};
@@ -36,6 +37,8 @@ pub enum AudioTarget {
     },
     /// Raw little-endian f32 on standard output.
     Stdout,
+    /// No file: the audio only plays (with [`DemodRequest::play`]).
+    Nothing,
 }
 
 /// Everything a `demod` run needs.
@@ -55,6 +58,12 @@ pub struct DemodRequest {
     pub audio: AudioTarget,
     /// Where to write the JSON report, if anywhere.
     pub report: Option<PathBuf>,
+    /// Also play the audio on this sound-card output (`default` for the default), paced to
+    /// the card's clock; needs the `sound` feature.
+    pub play: Option<String>,
+    /// Output latency for `play` in seconds (device buffer plus the ring's target fill);
+    /// `None`: the sink's default (30 ms). Larger values ride out a busy machine.
+    pub play_latency_s: Option<f64>,
 }
 
 impl DemodRequest {
@@ -68,6 +77,8 @@ impl DemodRequest {
             options: ReceiverOptions::default(),
             audio,
             report: None,
+            play: None,
+            play_latency_s: None,
         }
     }
 }
@@ -95,7 +106,33 @@ pub fn run_demod_until(
     progress: &(dyn Fn(Progress) + Sync),
     stop: &AtomicBool,
 ) -> Result<Report> {
-    let mut source = open_input(&request.input, &request.input_options)?;
+    run_demod_live(request, progress, stop, &LiveControl::default())
+}
+
+/// As [`run_demod_until`], with live controls: `control` carries retune requests in and the
+/// level, CNR and tuning out while the run goes on (see [`LiveControl`]).
+///
+/// An input named `sound:NAME` captures IQ from a sound card (feature `sound`), and
+/// `request.play` plays the audio on one; a sound card in the run makes the report carry
+/// `underruns`, `overruns`, `stream_errors` and, once measured, `clock_ppm`.
+pub fn run_demod_live(
+    request: &DemodRequest,
+    progress: &(dyn Fn(Progress) + Sync),
+    stop: &AtomicBool,
+    control: &LiveControl,
+) -> Result<Report> {
+    let mut sound = SoundSession::default();
+    let live_input = sound_input_name(&request.input);
+    let mut source = match live_input {
+        Some(name) => {
+            request.input_options.stream.validate()?;
+            crate::io::adapt_source(
+                sound.open_source(name, request.input_options.rate)?,
+                &request.input_options.stream,
+            )?
+        }
+        None => open_input(&request.input, &request.input_options)?,
+    };
     let input_files = input_files(&request.input, &source.info().path);
     let inputs: Vec<&Path> = input_files.iter().map(PathBuf::as_path).collect();
     if let Some(report) = &request.report {
@@ -121,6 +158,29 @@ pub fn run_demod_until(
     };
     let mut receiver = build_receiver(request.mode, &config)?;
     let mut sink = open_sink(&request.audio, receiver.as_ref(), &inputs)?;
+    if let Some(device) = &request.play {
+        let player = sound.open_sink(
+            device,
+            receiver.audio_rate(),
+            receiver.audio_channels().max(1),
+            request.play_latency_s,
+            live_input.is_some(),
+        )?;
+        sink = match request.audio {
+            AudioTarget::Nothing => player,
+            _ => Box::new(TeeSink(vec![sink, player])),
+        };
+    }
+    let runtime = if live_input.is_some() || request.play.is_some() {
+        // Pieces of 20 ms, so that a retune or the end of a live run is heard at once.
+        RuntimeConfig {
+            chunk: ((source.info().sample_rate * 0.02) as usize).clamp(256, 1 << 16),
+            depth: 4,
+        }
+    } else {
+        RuntimeConfig::default()
+    };
+    let input_rate = source.info().sample_rate;
     let channels = receiver.audio_channels().max(1);
     let mut aligned = Alignment::new(receiver.as_ref());
     let mut level = AudioLevelMeter::default();
@@ -146,13 +206,13 @@ pub fn run_demod_until(
             }
             Ok(n)
         },
-        receiver.as_mut(),
+        &mut Controlled::new(receiver.as_mut(), control, input_rate),
         |audio| {
             let kept = aligned.keep(audio, input_total.load(Ordering::Acquire));
             level.push(kept);
             sink.write(kept)
         },
-        RuntimeConfig::default(),
+        runtime,
     )?;
     sink.finish()?;
     let mut report = make_report(
@@ -165,6 +225,42 @@ pub fn run_demod_until(
     );
     report.audio_rms_dbfs = level.rms_dbfs();
     report.audio_peak_dbfs = level.peak_dbfs();
+    let last_offset = receiver.offset_hz();
+    if last_offset != offset_hz {
+        report.warnings.push(format!(
+            "retuned while running: the last tuning was {last_offset} Hz; the measurements \
+             cover every tuning"
+        ));
+    }
+    if let Some(figures) = sound.figures() {
+        report.underruns = Some(figures.underruns);
+        report.overruns = Some(figures.overruns);
+        report.stream_errors = Some(figures.stream_errors);
+        report.clock_ppm = figures.clock_ppm;
+        report.latency_s = figures.latency_s;
+        report.clock_correction_ppm = figures.correction_ppm;
+        if figures
+            .correction_ppm
+            .is_some_and(|c| c.abs() >= 0.999 * crate::pipeline::live::MAX_CORRECTION_PPM)
+        {
+            report.warnings.push(format!(
+                "the sound cards' clocks differ by more than the {} ppm the resampler absorbs",
+                crate::pipeline::live::MAX_CORRECTION_PPM
+            ));
+        }
+        if figures.underruns > 0 {
+            report.warnings.push(format!(
+                "the sound card ran dry {} times (underruns): the machine was too busy",
+                figures.underruns
+            ));
+        }
+        if figures.overruns > 0 {
+            report.warnings.push(format!(
+                "captured samples were dropped {} times (overruns): the receiver fell behind",
+                figures.overruns
+            ));
+        }
+    }
     if interrupted {
         report.warnings.insert(
             0,
@@ -319,6 +415,7 @@ fn open_sink(
             )?)
         }
         AudioTarget::Stdout => Box::new(RawAudioSink::try_stdout()?),
+        AudioTarget::Nothing => Box::new(TeeSink(Vec::new())),
     })
 }
 
@@ -358,6 +455,12 @@ fn make_report(
         audio_peak_dbfs: None,
         warnings,
         blanked_samples: measured.blanked_samples,
+        underruns: None,
+        overruns: None,
+        stream_errors: None,
+        clock_ppm: None,
+        latency_s: None,
+        clock_correction_ppm: None,
     }
 }
 

@@ -60,6 +60,26 @@ pub struct Report {
     pub warnings: Vec<String>,
     /// IQ samples the noise blanker set to zero; `null` without `--noise-blanker`.
     pub blanked_samples: Option<u64>,
+    /// Times the sound-card output ran dry while audio was due; `null` without `--play`
+    /// or a `sound:` input.
+    pub underruns: Option<u64>,
+    /// Times captured samples were dropped because the receiver fell behind; `null` without
+    /// a sound card.
+    pub overruns: Option<u64>,
+    /// Errors the sound system reported on its streams (the ALSA PulseAudio plugin reports
+    /// spurious ones while the audio stays clean); `null` without a sound card.
+    pub stream_errors: Option<u64>,
+    /// Sound-card clock error in ppm, positive when fast: output against input when both
+    /// are sound cards, else the one card against the system clock; `null` when not
+    /// measured (a run of under about 2 s, or no sound card).
+    pub clock_ppm: Option<f64>,
+    /// Sound-card output latency in seconds (the ring's target fill plus one device
+    /// buffer); `null` without `--play`.
+    pub latency_s: Option<f64>,
+    /// The resampling ratio applied at the end to follow a sound-card input's clock with a
+    /// sound-card output, ppm (positive: more samples out than in; within ±1000); `null`
+    /// unless both are sound cards.
+    pub clock_correction_ppm: Option<f64>,
 }
 
 impl Report {
