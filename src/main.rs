@@ -119,16 +119,16 @@ struct ScanArgs {
     /// The IQ input (NAME.sigmf-meta or NAME.sigmf-data, an IQ WAV, a raw file, or -).
     input: PathBuf,
     /// Write what was found as JSON.
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     json: Option<PathBuf>,
     /// Draw the averaged spectrum with the floor and the emissions found (PNG).
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     png: Option<PathBuf>,
     /// Draw the waterfall: time down, frequency across (PNG).
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     waterfall: Option<PathBuf>,
     /// Write a copy of the input's SigMF metadata with one annotation per emission.
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     annotate: Option<PathBuf>,
     /// Least CNR reported, dB (in each emission's occupied bandwidth).
     #[arg(long, allow_negative_numbers = true, default_value_t = amrx::band::scan::DEFAULT_MIN_CNR_DB)]
@@ -207,7 +207,7 @@ struct DemodArgs {
     #[arg(long)]
     play: bool,
     /// Sound-card output for --play (names from `amrx devices`; default: the system's).
-    #[arg(long, requires = "play")]
+    #[arg(long, requires = "play", allow_negative_numbers = true)]
     device: Option<String>,
     /// Sound-card output latency in milliseconds for --play (default 30); raise it (e.g. 600)
     /// if a busy machine makes the sound drop out.
@@ -308,7 +308,7 @@ struct SweepArgs {
     seed: u64,
     /// Fading of the test signal: none, or a standard HF condition (good, moderate, poor,
     /// flutter, mid-latitude-quiet, ...).
-    #[arg(long, default_value = "none")]
+    #[arg(long, allow_negative_numbers = true, default_value = "none")]
     fading: String,
     /// Impulsive noise: mean bursts per second (none without it).
     #[arg(long, allow_negative_numbers = true)]
@@ -331,16 +331,21 @@ struct SweepArgs {
     impulse_level: f64,
     /// Run only the K-th of N disjoint slices of the trials (K/N) and write their trial
     /// file to --csv; merge the files with --merge.
-    #[arg(long, value_name = "K/N", conflicts_with = "merge")]
+    #[arg(
+        long,
+        allow_negative_numbers = true,
+        value_name = "K/N",
+        conflicts_with = "merge"
+    )]
     shard: Option<String>,
     /// Merge the trial files of every shard (run with the same options) into the CSV and PNG.
-    #[arg(long, value_name = "TRIAL_FILES", num_args = 1..)]
+    #[arg(long, allow_negative_numbers = true, value_name = "TRIAL_FILES", num_args = 1..)]
     merge: Vec<PathBuf>,
     /// Receiver noise figure in dB: print the RF level for 12 dB SINAD and 10 dB (S+N)/N.
     #[arg(long, allow_negative_numbers = true)]
     noise_figure: Option<f64>,
     /// Draw the audio SINAD against RF level (needs --noise-figure).
-    #[arg(long, requires = "noise_figure")]
+    #[arg(long, allow_negative_numbers = true, requires = "noise_figure")]
     sensitivity_png: Option<PathBuf>,
     /// CSV output (with --shard: the trial file, default sweep-K-of-N.trials.csv).
     #[arg(long, allow_negative_numbers = true)]
