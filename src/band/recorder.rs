@@ -308,17 +308,8 @@ mod tests {
     use super::*;
     use rand::{rngs::StdRng, RngExt, SeedableRng};
 
-    fn noise(len: usize, seed: u64) -> Vec<Complex32> {
-        let mut rng = StdRng::seed_from_u64(seed);
-        (0..len)
-            .map(|_| {
-                Complex32::new(
-                    rng.random_range(-1.0f32..1.0),
-                    rng.random_range(-1.0f32..1.0),
-                )
-            })
-            .collect()
-    }
+    // Seeded complex noise, each component uniform in [−1, 1).
+    use crate::dsp::test_util::random_complex as noise;
 
     #[test]
     fn transform_length_follows_the_rate() {

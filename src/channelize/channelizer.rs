@@ -284,19 +284,9 @@ mod tests {
     use crate::block::check::{check_block, BlockCheck};
     use crate::block::process_to_vec;
     use num_complex::Complex64;
-    use rand::{rngs::StdRng, RngExt, SeedableRng};
 
-    fn noise(len: usize, seed: u64) -> Vec<Complex32> {
-        let mut rng = StdRng::seed_from_u64(seed);
-        (0..len)
-            .map(|_| {
-                Complex32::new(
-                    rng.random_range(-1.0f32..1.0),
-                    rng.random_range(-1.0f32..1.0),
-                )
-            })
-            .collect()
-    }
+    // Seeded complex noise, each component uniform in [−1, 1).
+    use crate::dsp::test_util::random_complex as noise;
 
     /// The direct form: each channel mixed down by k·fs/M, filtered by h, decimated by D, all
     /// in f64 (the definition in the module docs).
