@@ -295,3 +295,73 @@ fn a_raw_capture_named_after_its_datatype_tunes_by_absolute_frequency_with_centr
     let err = String::from_utf8_lossy(&out.stderr);
     assert!(!out.status.success() && err.contains("--centre"), "{err}");
 }
+
+/// A usb "station" (two tones above its suppressed carrier at −25 kHz) as a front end with I
+/// and Q crossed delivers it: mirrored, at +25 kHz, its tones below the carrier.
+fn swapped_usb() -> Vec<Complex32> {
+    let mut rng_state = 7u32;
+    let mut noise = move || {
+        // A small linear congruential generator (Numerical Recipes' constants) is enough for
+        // a floor the spectrum can read; its exact shape does not matter here.
+        rng_state = rng_state
+            .wrapping_mul(1_664_525)
+            .wrapping_add(1_013_904_223);
+        (f64::from(rng_state) / f64::from(u32::MAX) - 0.5) * 2e-3
+    };
+    (0..(RATE as usize))
+        .map(|i| {
+            let t = i as f64 / RATE;
+            let z: Complex32 = [700.0, 1900.0]
+                .iter()
+                .map(|f| {
+                    let phase = std::f64::consts::TAU * (OFFSET + f) * t;
+                    Complex32::new((0.1 * phase.cos()) as f32, (0.1 * phase.sin()) as f32)
+                })
+                .sum();
+            // I and Q crossed.
+            Complex32::new(z.im + noise() as f32, z.re + noise() as f32)
+        })
+        .collect()
+}
+
+#[test]
+fn reversed_sidebands_are_named_in_the_report_with_the_remedy() {
+    let dir = TempDir::new("reversed");
+    let rec = write_sigmf(&dir, "usb", SampleFormat::Cf32Le, RATE, &swapped_usb());
+    let rec = rec.display().to_string();
+    let wav = dir.path("a.wav").display().to_string();
+    let json = dir.path("a.json");
+    let json_s = json.display().to_string();
+    let warnings = |extra: &[&str]| {
+        let mut args = vec!["demod", &rec, "--mode", "usb", "--offset", "25000"];
+        args.extend_from_slice(extra);
+        args.extend_from_slice(&["--out", &wav, "--report", &json_s, "--quiet"]);
+        ok(&args);
+        report(&json)["warnings"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|w| w.as_str().unwrap().to_string())
+            .collect::<Vec<_>>()
+            .join("; ")
+    };
+    let crossed = warnings(&[]);
+    assert!(
+        crossed.contains("sidebands look reversed") && crossed.contains("--swap-iq"),
+        "{crossed}"
+    );
+    // Swapped back, the station is a usb one at −25 kHz... tuned there, no hint.
+    let mut args = vec![
+        "demod",
+        &rec,
+        "--swap-iq",
+        "--mode",
+        "usb",
+        "--offset",
+        "-25000",
+    ];
+    args.extend_from_slice(&["--out", &wav, "--report", &json_s, "--quiet"]);
+    ok(&args);
+    let fixed = report(&json)["warnings"].to_string();
+    assert!(!fixed.contains("reversed"), "{fixed}");
+}

@@ -325,6 +325,28 @@ impl<D: Detector> Assembly<D> {
         }
         channels * frames
     }
+
+    /// For usb and lsb: a hint when the emission stands on the other side of the tuned
+    /// frequency, 10 dB or more above what the chosen side holds.
+    fn reversed_sideband_warning(&self) -> Option<String> {
+        let (wanted, other) = match self.settings.mode {
+            Mode::Usb => ("upper", "lower"),
+            Mode::Lsb => ("lower", "upper"),
+            _ => return None,
+        };
+        let excess = super::channel_snr::mirror_excess_db(
+            self.front.spectrum(),
+            super::channel_snr::occupied_band_hz(&self.settings),
+            self.front.flat_band_hz(),
+        )?;
+        (excess >= 10.0).then(|| {
+            format!(
+                "the sidebands look reversed: the {other} sideband holds {excess:.0} dB more than \
+                 the {wanted} one tuned; if the front end delivers I and Q swapped, swap them \
+                 back (--swap-iq), else choose the other sideband"
+            )
+        })
+    }
 }
 
 impl<D: Detector> PieceWise for Assembly<D> {
@@ -466,6 +488,9 @@ impl<D: Detector> Receiver for Assembly<D> {
                 self.settings.bandwidth_hz,
                 self.front.flat_band_hz(),
             );
+        }
+        if let Some(warning) = self.reversed_sideband_warning() {
+            m.warnings.push(warning);
         }
         if m.cnr_db.is_some() && m.cnr_bandwidth_hz.is_none() {
             // Every detector's CNR is FrontEnd::cnr_db's: noise in twice the bandwidth.

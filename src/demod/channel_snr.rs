@@ -46,26 +46,76 @@ pub fn estimate_channel_snr_db(
         power: 0.0,
     };
     let n0 = estimate_noise_density_within(spectrum, &centre, lo.abs().max(hi.abs()), flat_hz)?;
-    let density = spectrum.density();
-    let bin = spectrum.bin_width();
-    let (mut power, mut bins) = (0.0, 0usize);
-    for (k, d) in density.iter().enumerate() {
-        let f = spectrum.bin_frequency(k);
-        if f >= lo && f <= hi {
-            power += d * bin;
-            bins += 1;
-        }
-    }
-    let signal = power - n0 * bin * bins as f64;
+    let (signal, _) = signal_in_band(spectrum, n0, band_hz);
     if n0 <= 0.0 || signal <= 0.0 {
         return None;
     }
     Some(10.0 * (signal / (n0 * message_bandwidth_hz)).log10())
 }
 
+/// (power above the floor, the floor's power) in `band_hz` of `spectrum`, for a floor of
+/// two-sided density `n0`.
+fn signal_in_band(spectrum: &PowerSpectrum, n0: f64, (lo, hi): (f64, f64)) -> (f64, f64) {
+    let bin = spectrum.bin_width();
+    let (mut power, mut bins) = (0.0, 0usize);
+    for (k, d) in spectrum.density().iter().enumerate() {
+        let f = spectrum.bin_frequency(k);
+        if f >= lo && f <= hi {
+            power += d * bin;
+            bins += 1;
+        }
+    }
+    let floor = n0 * bin * bins as f64;
+    (power - floor, floor)
+}
+
+/// How much more power (dB) stands in the mirror of `band_hz` (the other side of the tuned
+/// frequency) than in `band_hz` itself, when the mirror clearly holds an emission (its power
+/// at least 10 times the floor's there). A single-sideband emission found on the wrong side
+/// means the sidebands are reversed: I and Q swapped by the front end, or the other sideband
+/// chosen. `None` when the mirror holds nothing clear or the floor cannot be read.
+pub fn mirror_excess_db(
+    spectrum: &PowerSpectrum,
+    band_hz: (f64, f64),
+    flat_hz: f64,
+) -> Option<f64> {
+    let (lo, hi) = band_hz;
+    let centre = CarrierPeak {
+        frequency_hz: 0.0,
+        power: 0.0,
+    };
+    let n0 = estimate_noise_density_within(spectrum, &centre, lo.abs().max(hi.abs()), flat_hz)?;
+    let (wanted, floor) = signal_in_band(spectrum, n0, band_hz);
+    let (mirror, mirror_floor) = signal_in_band(spectrum, n0, (-hi, -lo));
+    if !(mirror > 10.0 * mirror_floor && mirror_floor > 0.0) {
+        return None;
+    }
+    // The wanted side counts at least its floor's share, so an empty side gives a finite ratio.
+    Some(10.0 * (mirror / wanted.max(floor).max(f64::MIN_POSITIVE)).log10())
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_single_sideband_on_the_wrong_side_is_seen_in_the_mirror() {
+        let fs = 24_000.0;
+        let usb = usb_in_noise(fs, 4.0, 1e-2, 1e-4);
+        let lsb: Vec<Complex32> = usb.iter().map(|z| z.conj()).collect();
+        let w = 3000.0;
+        let read = |x: &[Complex32]| {
+            let mut spectrum = PowerSpectrum::new(4096, fs).unwrap();
+            spectrum.push(x);
+            mirror_excess_db(&spectrum, (0.0, w), 2.0 * w)
+        };
+        // Tuned as usb: the usb emission leaves nothing clear in the mirror...
+        assert_eq!(read(&usb), None);
+        // ...the lsb one stands there far above an empty wanted side (its floor's share):
+        // 1e-2 of tones over 1e-4 · 3000/24000 of noise in the band is about 29 dB.
+        let excess = read(&lsb).unwrap();
+        assert!((20.0..35.0).contains(&excess), "{excess} dB");
+    }
     use crate::dsp::ComplexNoise;
     use crate::Complex32;
 
