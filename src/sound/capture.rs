@@ -41,7 +41,7 @@ pub fn capture_ring(
         channels: channels.max(2),
         frames_in: 0,
         dropping: false,
-        meter: RateMeter::default(),
+        meter: RateMeter::new(rate),
         rate,
         stats: Arc::clone(&stats),
     };
@@ -88,7 +88,7 @@ impl CaptureTap {
             self.stats.add_overrun();
         }
         self.dropping = dropped;
-        if let Some(ppm) = self.meter.ppm(self.rate, MIN_RATE_SPAN_S) {
+        if let Some(ppm) = self.meter.ppm(MIN_RATE_SPAN_S) {
             self.stats.set_input_ppm(ppm);
         }
     }

@@ -66,7 +66,7 @@ pub fn playout_ring(
         start_samples: target_frames * channels,
         playing: false,
         frames_out: 0,
-        meter: RateMeter::default(),
+        meter: RateMeter::new(rate),
         rate,
         shared,
         stats,
@@ -130,7 +130,7 @@ impl Playout {
         self.shared
             .frames_out
             .store(self.frames_out, Ordering::Release);
-        if let Some(ppm) = self.meter.ppm(self.rate, MIN_RATE_SPAN_S) {
+        if let Some(ppm) = self.meter.ppm(MIN_RATE_SPAN_S) {
             self.stats.set_output_ppm(ppm);
         }
     }
