@@ -42,7 +42,6 @@ pub fn capture_ring(
         frames_in: 0,
         dropping: false,
         meter: RateMeter::new(rate),
-        rate,
         stats: Arc::clone(&stats),
     };
     let reader = CaptureReader {
@@ -61,7 +60,6 @@ pub struct CaptureTap {
     frames_in: u64,
     dropping: bool,
     meter: RateMeter,
-    rate: f64,
     stats: Arc<LiveStats>,
 }
 

@@ -67,7 +67,6 @@ pub fn playout_ring(
         playing: false,
         frames_out: 0,
         meter: RateMeter::new(rate),
-        rate,
         shared,
         stats,
     };
@@ -84,7 +83,6 @@ pub struct Playout {
     playing: bool,
     frames_out: u64,
     meter: RateMeter,
-    rate: f64,
     shared: Arc<Shared>,
     stats: Arc<LiveStats>,
 }

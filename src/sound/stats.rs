@@ -161,7 +161,7 @@ impl RateMeter {
     /// Adds one observation: `frames` counted by time `t_s`.
     #[inline]
     pub fn add(&mut self, t_s: f64, frames: f64) {
-        if !(self.nominal > 0.0) {
+        if self.nominal.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater) {
             return;
         }
         let first = *self.first_t.get_or_insert(t_s);
