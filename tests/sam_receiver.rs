@@ -129,8 +129,9 @@ fn coherent_am_figure_of_merit_matches_theory() {
 /// filter the limit was the loop: the neighbour phase-modulated the reference through the
 /// closed-loop response |H(f)| ≈ 2ζω_n/(2πf) (Gardner, Phaselock Techniques, ch. 2), about
 /// −44 dB at 2 kHz for B_L = 30 Hz (measured rejection of the carrier alone 43.7 dB) and about
-/// 10 dB lower at 10 Hz (measured 52.2 dB). The filter's two poles at 200 Hz take another
-/// 40 dB off at 2 kHz.
+/// 10 dB lower at 10 Hz (measured 52.2 dB; 52.3 dB for the heterodyne in this test with the
+/// filter taken out). The filter's two poles at 200 Hz take another 40 dB off at 2 kHz;
+/// measured with it: 82.4 to 86.5 dB over the six lines.
 #[test]
 fn one_sideband_rejects_a_neighbour_on_the_other_side() {
     for (side, neighbour) in [(Sideband::Upper, -2000.0), (Sideband::Lower, 2000.0)] {

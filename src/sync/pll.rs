@@ -588,35 +588,46 @@ mod tests {
     }
 
     /// The carrier filter passes the carrier and stops a line 2 kHz away: with a 10 Hz loop
-    /// (filter at 200 Hz) a second line of a tenth of the carrier's amplitude 2 kHz away moves
-    /// the NCO phase by at most a tenth as much as without the filter (two poles at 200 Hz
-    /// take 40 dB off at 2 kHz: |1/(1 + j·10)|²).
+    /// (filter at 200 Hz) a second line of a tenth of the carrier's amplitude 2 kHz away
+    /// ripples the NCO phase at 2 kHz 40 dB less than without the filter (two one-poles at
+    /// 200 Hz: |1/(1 + j·10)|² at 2 kHz; measured 40.0 dB), asserted within 1 dB (the
+    /// one-poles are discrete, the prediction is for their analog twins). The ripple is the 2 kHz component of the NCO phase over exactly 2000 of its
+    /// periods from 1 s on, after the start-up transient (time constant 1/(ζω_n) = 75 ms).
     #[test]
     fn carrier_filter_keeps_a_distant_line_out_of_the_loop() {
-        let x: Vec<Complex32> = (0..48_000)
+        let x: Vec<Complex32> = (0..96_000)
             .map(|n| {
                 let t = n as f64 / FS;
                 Complex32::from_polar(1.0, 0.2)
                     + Complex32::from_polar(0.1, (TAU * 2000.0 * t) as f32)
             })
             .collect();
-        let wobble = |config: PllConfig| {
+        let ripple = |config: PllConfig| {
             let mut pll = CarrierPll::new(config).unwrap();
-            let mut phases = Vec::new();
+            let (mut sum, mut re, mut im, mut count) = (0.0, 0.0, 0.0, 0.0);
             for (n, &s) in x.iter().enumerate() {
                 pll.next_sample(s);
-                if n >= 24_000 {
-                    phases.push(pll.phase());
+                if n >= 48_000 {
+                    let p = pll.phase();
+                    let w = TAU * 2000.0 * n as f64 / FS;
+                    sum += p;
+                    re += p * w.cos();
+                    im += p * w.sin();
+                    count += 1.0;
                 }
             }
-            let mean = phases.iter().sum::<f64>() / phases.len() as f64;
-            assert!((mean - 0.2).abs() < 1e-3, "mean phase {mean}");
-            phases.iter().map(|p| (p - mean).abs()).fold(0.0, f64::max)
+            assert!(
+                (sum / count - 0.2).abs() < 1e-3,
+                "mean phase {}",
+                sum / count
+            );
+            2.0 * (re * re + im * im).sqrt() / count
         };
-        let plain = wobble(PllConfig::new(FS, 10.0));
-        let filtered = wobble(PllConfig::new(FS, 10.0).with_carrier_filter());
-        eprintln!("peak phase wobble: {plain:.3e} rad without, {filtered:.3e} rad with the filter");
-        assert!(filtered < 0.1 * plain, "{filtered} vs {plain}");
+        let plain = ripple(PllConfig::new(FS, 10.0));
+        let filtered = ripple(PllConfig::new(FS, 10.0).with_carrier_filter());
+        let drop_db = 20.0 * (plain / filtered).log10();
+        eprintln!("2 kHz phase ripple: {plain:.3e} rad without, {filtered:.3e} rad with the filter ({drop_db:.1} dB less)");
+        assert!((drop_db - 40.0).abs() < 1.0, "{drop_db:.1} dB");
     }
 
     #[test]
