@@ -194,6 +194,7 @@ impl ModeSettings {
             loop_bandwidth_hz,
             damping: self.loop_damping,
             initial_frequency_hz: 0.0,
+            carrier_filter_hz: None,
         })
     }
 }

@@ -12,7 +12,10 @@
 //! One sideband (`sideband`): the de-rotated signal is first reduced to its upper (or lower)
 //! half by the Weaver arrangement (D. K. Weaver, Proc. IRE, 1956): shift by ∓W/2, low-pass
 //! ±W/2, shift back; then 2·Re(·) restores the level of both sidebands. This keeps the message
-//! when selective fading or a neighbour spoils the other sideband.
+//! when selective fading or a neighbour spoils the other sideband. The loop then sees the
+//! carrier through its carrier filter ([`PllConfig::with_carrier_filter`](crate::sync::PllConfig::with_carrier_filter),
+//! two poles at 20·B_L, 200 Hz for the default 10 Hz loop), so that a neighbour on the rejected
+//! side does not phase-modulate the reference and come back through the kept side.
 
 use super::assembly::Assembly;
 use super::config::ModeSettings;
@@ -33,7 +36,8 @@ pub const DEFAULT_LOOP_BANDWIDTH_HZ: f64 = 30.0;
 /// Default loop bandwidth with one sideband kept: a neighbour on the rejected side
 /// phase-modulates the reference through the loop's closed-loop response, which falls with
 /// B_L, so a narrower loop rejects it further (measured: 43.7 dB at 30 Hz, 52.2 dB at 10 Hz
-/// for a neighbour 2 kHz away); the coarse FFT acquisition keeps lock-in fast.
+/// for a neighbour 2 kHz away, before the loop had its carrier filter); the coarse FFT
+/// acquisition keeps lock-in fast.
 pub const DEFAULT_SIDEBAND_LOOP_BANDWIDTH_HZ: f64 = 10.0;
 
 /// Synchronous AM receiver.
@@ -57,7 +61,12 @@ impl ModeDetector for SamDetector {
     /// Bad loop settings are errors naming the parameter.
     fn build(settings: &ModeSettings, context: &DetectorContext) -> Result<Self> {
         let rate = context.detection_rate;
-        let pll = CarrierPll::new(settings.loop_config(rate)?)?;
+        let mut loop_config = settings.loop_config(rate)?;
+        if settings.sideband.is_some() {
+            // One sideband: a neighbour on the rejected side must not reach the loop.
+            loop_config = loop_config.with_carrier_filter();
+        }
+        let pll = CarrierPll::new(loop_config)?;
         let search = search_hz(settings.bandwidth_hz);
         let carrier = CarrierAcquisition::new(pll, CarrierKind::Line, search, rate)?;
         let mid = context.max_piece;

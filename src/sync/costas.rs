@@ -64,6 +64,13 @@ impl CostasLoop {
                 "outside the loop's ±rate/2",
             ));
         }
+        if let Some(corner) = config.carrier_filter_hz {
+            return Err(Error::parameter(
+                "carrier_filter_hz",
+                corner,
+                "the Costas loop has no carrier filter",
+            ));
+        }
         Ok(CostasLoop {
             nominal: TAU * config.initial_frequency_hz / config.sample_rate,
             gains,

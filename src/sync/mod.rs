@@ -11,4 +11,4 @@ pub use acquisition::{CarrierAcquisition, CarrierKind, CarrierLoop};
 pub use costas::CostasLoop;
 pub use loop_filter::LoopGains;
 pub use loop_settings::LoopSettings;
-pub use pll::{CarrierPll, PllConfig};
+pub use pll::{CarrierPll, PllConfig, CARRIER_FILTER_RATIO, MIN_CARRIER_FILTER_RATIO};
