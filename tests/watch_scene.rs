@@ -124,8 +124,14 @@ fn every_active_channel_is_heard_alone_and_timed() {
             Some(&(_, tone, start, stop)) => {
                 // One transmission, timed within 0.25 s (the meter's windows are 0.1 s).
                 assert_eq!(tx.len(), 1, "channel {k}: {c}");
-                let (s, e) = (tx[0]["start_s"].as_f64().unwrap(), tx[0]["end_s"].as_f64().unwrap());
-                assert!((s - start).abs() <= 0.25 && (e - stop).abs() <= 0.25, "channel {k}: {s}..{e} vs {start}..{stop}");
+                let (s, e) = (
+                    tx[0]["start_s"].as_f64().unwrap(),
+                    tx[0]["end_s"].as_f64().unwrap(),
+                );
+                assert!(
+                    (s - start).abs() <= 0.25 && (e - stop).abs() <= 0.25,
+                    "channel {k}: {s}..{e} vs {start}..{stop}"
+                );
                 assert!(tx[0]["peak_cnr_db"].as_f64().unwrap() > 20.0, "{c}");
                 let file = c["file"].as_str().unwrap();
                 let (rate, x) = read_wav(&wavs.join(file));
@@ -146,11 +152,16 @@ fn every_active_channel_is_heard_alone_and_timed() {
         let Some((tone, _, _, x)) = a else { continue };
         let own = tone_power(&span(x), *tone);
         for j in [k.wrapping_sub(1), k + 1] {
-            let Some(Some((other, ..))) = audio.get(j) else { continue };
+            let Some(Some((other, ..))) = audio.get(j) else {
+                continue;
+            };
             let leak = tone_power(&span(x), *other);
             let db = 10.0 * (own / leak.max(1e-30)).log10();
             eprintln!("channel {k}: neighbour {j}'s tone {db:.1} dB down");
-            assert!(db >= 40.0, "channel {k}: neighbour {j} only {db:.1} dB down");
+            assert!(
+                db >= 40.0,
+                "channel {k}: neighbour {j} only {db:.1} dB down"
+            );
         }
     }
 

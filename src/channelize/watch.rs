@@ -568,6 +568,11 @@ pub fn run_watch(request: &WatchRequest, progress: &dyn Fn(u64, usize)) -> Resul
             "the output directory does not exist",
         ));
     }
+    let block = FRAMES_PER_BLOCK * design.decimation;
+    let mut buf = vec![Complex32::default(); block];
+    let mut frames =
+        vec![Complex32::default(); bank.max_output_len(block).max(bank.flush_output_len())];
+    let max_frames = frames.len() / m;
     let mut strands = Vec::with_capacity(offsets.len());
     for (k, &offset) in offsets.iter().enumerate() {
         if offset.abs() + NOISE_VIEW * bandwidth >= 0.45 * fs {
@@ -598,7 +603,7 @@ pub fn run_watch(request: &WatchRequest, progress: &dyn Fn(u64, usize)) -> Resul
         let channels = receiver.audio_channels();
         let delay_s = receiver.delay() / design.bin_rate + bank_delay_s;
         let skip = (delay_s * request.audio_rate).round() as usize * channels;
-        let audio = vec![0.0; receiver.max_output_len(FRAMES_PER_BLOCK + 1)];
+        let audio = vec![0.0; receiver.max_output_len(max_frames)];
         let hz = match info.centre_frequency {
             Some(c) => format!("{:.0}Hz", c + offset),
             None => format!("{offset:+.0}Hz"),
@@ -606,7 +611,7 @@ pub fn run_watch(request: &WatchRequest, progress: &dyn Fn(u64, usize)) -> Resul
         strands.push(Strand {
             bin,
             offset_hz: offset,
-            samples: vec![Complex32::default(); FRAMES_PER_BLOCK + 1],
+            samples: vec![Complex32::default(); max_frames],
             audio,
             channels,
             audio_rate: request.audio_rate,
@@ -624,10 +629,6 @@ pub fn run_watch(request: &WatchRequest, progress: &dyn Fn(u64, usize)) -> Resul
             receiver,
         });
     }
-    let block = FRAMES_PER_BLOCK * design.decimation;
-    let mut buf = vec![Complex32::default(); block];
-    let mut frames =
-        vec![Complex32::default(); bank.max_output_len(block).max(bank.flush_output_len())];
     let mut read = 0u64;
     loop {
         let n = source.read(&mut buf)?;
