@@ -454,8 +454,10 @@ impl Strand {
                 cnr_db,
                 ..
             } = w;
-            let start = start_s - self.window_shift_s;
-            let end = start + duration_s;
+            // The first window starts at the first input; less the channelizer's delay it
+            // would start before the recording.
+            let end = start_s - self.window_shift_s + duration_s;
+            let start = (start_s - self.window_shift_s).max(0.0);
             let open = self.squelch.update(start, end, cnr_db);
             self.decisions.push_back((start, end, open));
         }
