@@ -182,3 +182,43 @@ fn every_active_channel_is_heard_alone_and_timed() {
     let quiet_after = &x[((stop + 0.3 + 0.3) * AUDIO) as usize..];
     assert!(quiet_before.iter().chain(quiet_after).all(|&v| v == 0.0));
 }
+
+/// Refusals name the flag the user can change, and nothing is written.
+#[test]
+fn refusals_name_the_flag() {
+    let dir = Path::new(env!("CARGO_TARGET_TMPDIR")).join("watch_refusals");
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(dir.join("wavs")).unwrap();
+    let scene = format!(
+        r#"{{ "sample_rate": {RATE}, "centre_frequency": {CENTRE}, "duration_s": 0.2, "seed": 5,
+  "noise": {{ "density_db_hz": -100 }}, "emissions": [] }}"#
+    );
+    std::fs::write(dir.join("short.json"), scene).unwrap();
+    run_scene(&dir.join("short.json"), &dir.join("short"), None).unwrap();
+    let run = |args: &[&str]| {
+        let out = Command::new(env!("CARGO_BIN_EXE_amrx"))
+            .arg("watch")
+            .arg(dir.join("short.sigmf-meta"))
+            .args(["--out-dir", dir.join("wavs").to_str().unwrap(), "--quiet"])
+            .args(args)
+            .output()
+            .unwrap();
+        assert!(!out.status.success(), "{args:?} was accepted");
+        String::from_utf8_lossy(&out.stderr).into_owned()
+    };
+    let cases: [(&[&str], &str); 5] = [
+        (&["--mode", "usb", "--offsets", "0:8333:3"], "--mode"),
+        (&["--mode", "am", "--offsets", "0:8333"], "--offsets"),
+        (&["--mode", "am", "--offsets", "120000:8333:3"], "--offsets"),
+        (&["--mode", "am", "--carriers", "1:8333:3"], "--carriers"),
+        (
+            &["--mode", "am", "--offsets", "0:8333:3", "--squelch", "nan"],
+            "--squelch",
+        ),
+    ];
+    for (args, flag) in cases {
+        let said = run(args);
+        assert!(said.contains(flag), "{args:?}: {said}");
+    }
+    assert_eq!(std::fs::read_dir(dir.join("wavs")).unwrap().count(), 0);
+}
