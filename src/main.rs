@@ -40,6 +40,8 @@ enum Command {
     Measure(MeasureArgs),
     /// Find every emission on the band: frequency, class, level, CNR, 99 % bandwidth, times.
     Scan(ScanArgs),
+    /// Receive every channel of a plan at once: squelched WAVs, activity log, summary.
+    Watch(WatchArgs),
     /// Show what a recording holds.
     Info {
         /// The recording (SigMF, IQ WAV, raw file or - for standard input).
@@ -134,6 +136,49 @@ struct ScanArgs {
     #[arg(long, allow_negative_numbers = true, default_value_t = amrx::band::scan::DEFAULT_MIN_CNR_DB)]
     min_cnr: f64,
     /// No progress bar.
+    #[arg(long)]
+    quiet: bool,
+    #[command(flatten)]
+    input_options: InputArgs,
+}
+
+#[derive(Args, Debug)]
+struct WatchArgs {
+    /// The IQ input (NAME.sigmf-meta or NAME.sigmf-data, an IQ WAV, a raw file, or -).
+    input: PathBuf,
+    /// Receive mode (one with a carrier: am, sam, vsb).
+    #[arg(long, allow_negative_numbers = true, value_parser = parse_mode)]
+    mode: Mode,
+    /// Channels relative to the recording centre: FIRST:STEP:COUNT in Hz.
+    #[arg(
+        long,
+        allow_negative_numbers = true,
+        conflicts_with = "carriers",
+        required_unless_present = "carriers"
+    )]
+    offsets: Option<String>,
+    /// Absolute channel frequencies: FIRST:STEP:COUNT in Hz (needs the recording's centre).
+    #[arg(long, allow_negative_numbers = true)]
+    carriers: Option<String>,
+    /// CNR that opens a channel's squelch, dB.
+    #[arg(long, allow_negative_numbers = true, default_value_t = amrx::channelize::watch::DEFAULT_SQUELCH_DB)]
+    squelch: f64,
+    /// Channel (audio) bandwidth in Hz (the mode's default when absent).
+    #[arg(long, allow_negative_numbers = true)]
+    bandwidth: Option<f64>,
+    /// Audio sample rate in Hz.
+    #[arg(long, allow_negative_numbers = true, default_value_t = 48000.0)]
+    audio_rate: f64,
+    /// Directory for one WAV per channel that was ever active.
+    #[arg(long, allow_negative_numbers = true)]
+    out_dir: PathBuf,
+    /// Activity log: one CSV row per transmission.
+    #[arg(long, allow_negative_numbers = true)]
+    log: Option<PathBuf>,
+    /// Summary of every channel (JSON).
+    #[arg(long, allow_negative_numbers = true)]
+    json: Option<PathBuf>,
+    /// No progress line.
     #[arg(long)]
     quiet: bool,
     #[command(flatten)]
@@ -410,6 +455,7 @@ fn main() -> ExitCode {
         Command::Demod(args) => demod(args),
         Command::Measure(args) => measure(&args).map(|()| 0),
         Command::Scan(args) => scan(&args).map(|()| 0),
+        Command::Watch(args) => watch(&args).map(|()| 0),
         Command::Info {
             input,
             input_options,
@@ -551,6 +597,9 @@ fn flag_for(parameter: &str) -> Option<&'static str> {
         "limit_positive" => "--limit-positive",
         "limit_negative" => "--limit-negative",
         "min_cnr_db" => "--min-cnr",
+        "squelch_db" => "--squelch",
+        "offsets" | "channel_plan" => "--offsets/--carriers",
+        "carriers" => "--carriers",
         "latency_s" => "--latency (in ms)",
         _ => return None,
     })
@@ -709,6 +758,61 @@ fn measure(args: &MeasureArgs) -> Result<(), String> {
         outln!(text, "{line}");
     }
     emit(&text)
+}
+
+fn watch(args: &WatchArgs) -> Result<(), String> {
+    use amrx::channelize::watch::{write_reports, ChannelPlan, PlanFrequencies, WatchRequest};
+    let outputs: Vec<&Path> = [&args.json, &args.log]
+        .into_iter()
+        .flatten()
+        .map(PathBuf::as_path)
+        .collect();
+    check_outputs(&args.input, &outputs).map_err(|e| with_input(&args.input, e))?;
+    let (text, frequencies) = match (&args.offsets, &args.carriers) {
+        (Some(p), _) => (p, PlanFrequencies::Offsets),
+        (None, Some(p)) => (p, PlanFrequencies::Carriers),
+        (None, None) => return Err("give --offsets or --carriers".to_string()),
+    };
+    let plan: ChannelPlan = text.parse().map_err(|e| with_input(&args.input, e))?;
+    let request = WatchRequest {
+        input: args.input.clone(),
+        input_options: args.input_options.options(),
+        mode: args.mode,
+        plan,
+        frequencies,
+        squelch_db: args.squelch,
+        bandwidth_hz: args.bandwidth,
+        audio_rate: args.audio_rate,
+        out_dir: args.out_dir.clone(),
+    };
+    let bar = progress_bar(args.quiet, "watch");
+    let outcome = amrx::channelize::run_watch(&request, &|n, open| {
+        bar.set_position(n);
+        bar.set_prefix(format!("watch: {open} open"));
+    });
+    bar.finish_and_clear();
+    let outcome = outcome.map_err(|e| with_input(&args.input, e))?;
+    for warning in &outcome.warnings {
+        eprintln!("amrx: warning: {}: {warning}", args.input.display());
+    }
+    write_reports(
+        &outcome,
+        &args.input,
+        args.json.as_deref(),
+        args.log.as_deref(),
+    )
+    .map_err(|e| with_input(&args.input, e))?;
+    for c in &outcome.summary.channels {
+        if let Some(file) = &c.file {
+            println!(
+                "{:+.0} Hz: {} transmission(s), {:.1} s active -> {file}",
+                c.offset_hz,
+                c.transmissions.len(),
+                c.active_s
+            );
+        }
+    }
+    Ok(())
 }
 
 fn scan(args: &ScanArgs) -> Result<(), String> {
