@@ -152,13 +152,13 @@ struct WatchArgs {
     /// Channels relative to the recording centre: FIRST:STEP:COUNT in Hz.
     #[arg(
         long,
-        allow_negative_numbers = true,
+        allow_hyphen_values = true,
         conflicts_with = "carriers",
         required_unless_present = "carriers"
     )]
     offsets: Option<String>,
     /// Absolute channel frequencies: FIRST:STEP:COUNT in Hz (needs the recording's centre).
-    #[arg(long, allow_negative_numbers = true)]
+    #[arg(long, allow_hyphen_values = true)]
     carriers: Option<String>,
     /// CNR that opens a channel's squelch, dB.
     #[arg(long, allow_negative_numbers = true, default_value_t = amrx::channelize::watch::DEFAULT_SQUELCH_DB)]
@@ -1487,6 +1487,11 @@ mod tests {
             }
         }
         assert!(checked > 30, "{checked}");
+        // A channel plan starting below the centre.
+        let plan = ["amrx", "watch", "x.wav", "--mode", "am", "--out-dir", "d"];
+        let mut argv = plan.to_vec();
+        argv.extend(["--offsets", "-180000:25000:20"]);
+        assert!(Cli::try_parse_from(&argv).is_ok());
     }
 
     #[test]

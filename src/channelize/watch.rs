@@ -564,11 +564,20 @@ pub fn run_watch(request: &WatchRequest, progress: &dyn Fn(u64, usize)) -> Resul
     let m = design.bins;
     let mut bank = PolyphaseChannelizer::new(m, design.decimation, design.taps.clone())?;
     let bank_delay_s = bank.delay() / fs;
+    // The folder is made as `demo` makes its own; only its parent must exist, so a mistyped
+    // path does not grow a tree of folders.
     if !request.out_dir.is_dir() {
-        return Err(Error::file(
-            &request.out_dir,
-            "the output directory does not exist",
-        ));
+        let parent_exists = match request.out_dir.parent() {
+            Some(p) if !p.as_os_str().is_empty() => p.is_dir(),
+            _ => true,
+        };
+        if !parent_exists {
+            return Err(Error::file(
+                &request.out_dir,
+                "neither this output folder nor the folder above it exists",
+            ));
+        }
+        std::fs::create_dir(&request.out_dir).map_err(|e| Error::io(&request.out_dir, e))?;
     }
     let block = FRAMES_PER_BLOCK * design.decimation;
     let mut buf = vec![Complex32::default(); block];
@@ -658,7 +667,8 @@ pub fn run_watch(request: &WatchRequest, progress: &dyn Fn(u64, usize)) -> Resul
                 offset_hz: s.offset_hz,
                 frequency_hz: info.centre_frequency.map(|c| c + s.offset_hz),
                 file,
-                active_s: heard.iter().map(|t| t.end_s - t.start_s).sum(),
+                // `+ 0.0`: an empty float sum is −0.0, which JSON would print as such.
+                active_s: heard.iter().map(|t| t.end_s - t.start_s).sum::<f64>() + 0.0,
                 transmissions: heard,
             }
         })
