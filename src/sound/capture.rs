@@ -8,14 +8,6 @@ use ringbuf::{HeapCons, HeapProd, HeapRb};
 use std::sync::Arc;
 use std::time::{Duration, Instant};
 
-/// Seconds of callbacks before the clock error is published: over shorter spans the
-/// callbacks' bursty timing dominates.
-const MIN_RATE_SPAN_S: f64 = 10.0;
-
-/// Seconds after the stream starts before the rate meter counts: the sound server delivers
-/// its buffers in a burst at the start, which would bias the slope.
-const WARM_UP_S: f64 = 1.0;
-
 /// Builds a capture ring holding `capacity_frames` I/Q pairs from a device with `channels`
 /// channels (at least 2: the first is I, the second Q, any others are ignored) at `rate` Hz.
 ///
@@ -67,9 +59,7 @@ impl CaptureTap {
     /// Takes one device buffer of interleaved frames, converting each sample with `convert`;
     /// `now_s` is the callback's time on a monotonic clock (for the clock-rate meter).
     pub fn take<T: Copy>(&mut self, data: &[T], now_s: f64, convert: impl Fn(T) -> f32) {
-        if now_s >= WARM_UP_S {
-            self.meter.add(now_s, self.frames_in as f64);
-        }
+        self.meter.add_callback(now_s, self.frames_in);
         let frames = data.len() / self.channels;
         self.frames_in += frames as u64;
         let mut dropped = false;
@@ -86,7 +76,7 @@ impl CaptureTap {
             self.stats.add_overrun();
         }
         self.dropping = dropped;
-        if let Some(ppm) = self.meter.ppm(MIN_RATE_SPAN_S) {
+        if let Some(ppm) = self.meter.ppm(RateMeter::MIN_SPAN_S) {
             self.stats.set_input_ppm(ppm);
         }
     }

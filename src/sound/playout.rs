@@ -9,14 +9,6 @@ use std::sync::atomic::{AtomicBool, AtomicU64, Ordering};
 use std::sync::Arc;
 use std::time::{Duration, Instant};
 
-/// Seconds of callbacks before the clock error is published: over shorter spans the
-/// callbacks' bursty timing dominates (2 s runs read several hundred ppm on a null sink).
-const MIN_RATE_SPAN_S: f64 = 10.0;
-
-/// Seconds after the stream starts before the rate meter counts: the sound server fills its
-/// buffers in a burst at the start, which would bias the slope.
-const WARM_UP_S: f64 = 1.0;
-
 /// Shared between the two halves: "the producer has finished" and how far the device got.
 #[derive(Debug)]
 struct Shared {
@@ -121,14 +113,12 @@ impl Playout {
         for slot in &mut out[written..] {
             *slot = silence;
         }
-        if now_s >= WARM_UP_S {
-            self.meter.add(now_s, self.frames_out as f64);
-        }
+        self.meter.add_callback(now_s, self.frames_out);
         self.frames_out += (out.len() / self.channels) as u64;
         self.shared
             .frames_out
             .store(self.frames_out, Ordering::Release);
-        if let Some(ppm) = self.meter.ppm(MIN_RATE_SPAN_S) {
+        if let Some(ppm) = self.meter.ppm(RateMeter::MIN_SPAN_S) {
             self.stats.set_output_ppm(ppm);
         }
     }

@@ -149,6 +149,12 @@ impl RateMeter {
     pub const SETTLE_S: f64 = 2.0;
     /// Seconds per window whose least lateness is kept.
     pub const WINDOW_S: f64 = 0.5;
+    /// Seconds after a stream starts before its callbacks count at all: the sound server
+    /// moves its buffers in a burst at the start ([`RateMeter::add_callback`]).
+    pub const STREAM_WARM_UP_S: f64 = 1.0;
+    /// Seconds of fitted windows before the clock error is published: over shorter spans the
+    /// callbacks' bursty timing dominates (2 s runs read several hundred ppm on a null sink).
+    pub const MIN_SPAN_S: f64 = 10.0;
 
     /// A meter for a device running at `nominal_rate` frames per second.
     pub fn new(nominal_rate: f64) -> Self {
@@ -180,6 +186,15 @@ impl RateMeter {
         let lateness = t_s - frames / self.nominal;
         if self.window_min.is_none_or(|(_, least)| lateness < least) {
             self.window_min = Some((t_s, lateness));
+        }
+    }
+
+    /// Adds a device callback at `now_s` seconds after its stream started, with `frames`
+    /// moved so far; callbacks of the first [`RateMeter::STREAM_WARM_UP_S`] are left out.
+    #[inline]
+    pub fn add_callback(&mut self, now_s: f64, frames: u64) {
+        if now_s >= Self::STREAM_WARM_UP_S {
+            self.add(now_s, frames as f64);
         }
     }
 
