@@ -73,15 +73,18 @@ fn output_callback_allocates_nothing() {
     let mut device = vec![0.0f32; 512];
     let mut device16 = vec![0i16; 512];
     let n = allocations_in(|| {
+        // Callbacks on time for 256-frame buffers at 48 kHz, for 15 s: long enough for the
+        // rate meter to publish (it starts after 3 s and needs 10 s of fitted windows).
+        let buffer_s = 256.0 / 48_000.0;
         let mut t = 0.0;
-        for round in 0..400 {
+        for round in 0..1400 {
             // Keep the ring fed for most rounds, let it run dry now and then (underruns).
             if round % 50 < 45 {
                 feed.try_push(&audio);
             }
             playout.render(&mut device, t, |x| x);
-            playout.render(&mut device16, t + 0.005, |x| (x * 32767.0) as i16);
-            t += 0.05;
+            playout.render(&mut device16, t + buffer_s, |x| (x * 32767.0) as i16);
+            t += 2.0 * buffer_s;
         }
     });
     assert_eq!(n, 0, "the output callback allocated {n} times");

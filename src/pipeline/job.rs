@@ -239,6 +239,8 @@ pub fn run_demod_live(
         report.clock_ppm = figures.clock_ppm;
         report.latency_s = figures.latency_s;
         report.clock_correction_ppm = figures.correction_ppm;
+        report.dropouts = Some(figures.dropouts);
+        report.dropout_s = Some(figures.dropout_s);
         if figures
             .correction_ppm
             .is_some_and(|c| c.abs() >= 0.999 * crate::pipeline::live::MAX_CORRECTION_PPM)
@@ -258,6 +260,14 @@ pub fn run_demod_live(
             report.warnings.push(format!(
                 "captured samples were dropped {} times (overruns): the receiver fell behind",
                 figures.overruns
+            ));
+        }
+        if figures.dropouts > 0 {
+            report.warnings.push(format!(
+                "the sound card went on without the audio {} times ({:.2} s in all) while \
+                 the ring had it: the sound server was starved; a larger --latency rides \
+                 through (600 ms did on a loaded 2-core machine)",
+                figures.dropouts, figures.dropout_s
             ));
         }
     }
@@ -461,6 +471,8 @@ fn make_report(
         clock_ppm: None,
         latency_s: None,
         clock_correction_ppm: None,
+        dropouts: None,
+        dropout_s: None,
     }
 }
 

@@ -42,6 +42,10 @@ pub struct SoundFigures {
     pub latency_s: Option<f64>,
     /// Resampling correction applied to follow a live source's clock, ppm.
     pub correction_ppm: Option<f64>,
+    /// Dropouts on the device side (the clock meters' count), and their seconds.
+    pub dropouts: u64,
+    /// Seconds lost or inserted in the dropouts.
+    pub dropout_s: f64,
 }
 
 /// The sound side of a run: the shared counters (with the feature) or nothing.
@@ -119,6 +123,8 @@ impl SoundSession {
                 clock_ppm: f.clock_ppm,
                 latency_s: f.latency_s,
                 correction_ppm: f.correction_ppm,
+                dropouts: f.dropouts,
+                dropout_s: f.dropout_s,
             })
         }
         #[cfg(not(feature = "sound"))]

@@ -80,6 +80,12 @@ pub struct Report {
     /// sound-card output, ppm (positive: more samples out than in; within ±1000); `null`
     /// unless both are sound cards.
     pub clock_correction_ppm: Option<f64>,
+    /// Times a sound card went on without the stream's samples while the ring had them
+    /// (a starved sound server playing silence, or a buffer discarded on recovery), found
+    /// from the callbacks' timing; output and input summed. `null` without a sound card.
+    pub dropouts: Option<u64>,
+    /// Seconds of audio lost or inserted in those dropouts; `null` without a sound card.
+    pub dropout_s: Option<f64>,
 }
 
 impl Report {

@@ -79,6 +79,8 @@ impl CaptureTap {
         if let Some(ppm) = self.meter.ppm(RateMeter::MIN_SPAN_S) {
             self.stats.set_input_ppm(ppm);
         }
+        self.stats
+            .set_input_dropouts(self.meter.dropouts(), self.meter.lost_s());
     }
 }
 

@@ -28,7 +28,7 @@ mod stats;
 
 pub use capture::{capture_ring, CaptureReader, CaptureTap};
 pub use device::{list_devices, Capability, DeviceSummary};
-pub use drift::{DriftCorrector, MAX_PPM};
+pub use drift::{DriftCorrector, RingView, MAX_PPM};
 pub use playout::{playout_ring, Playout, PlayoutFeed};
 pub use sink::{SoundSink, SoundSinkSettings, DEFAULT_LATENCY_S};
 pub use source::SoundSource;

@@ -121,6 +121,8 @@ impl Playout {
         if let Some(ppm) = self.meter.ppm(RateMeter::MIN_SPAN_S) {
             self.stats.set_output_ppm(ppm);
         }
+        self.stats
+            .set_output_dropouts(self.meter.dropouts(), self.meter.lost_s());
     }
 
     /// Frames the device has taken so far.

@@ -1,7 +1,7 @@
 //! [`SoundSink`]: an [`AudioSink`] that plays through a sound card.
 
 use super::device::{device_error, find, pick_config, Direction, QuietAlsa};
-use super::drift::DriftCorrector;
+use super::drift::{DriftCorrector, RingView};
 use super::playout::{playout_ring, Playout, PlayoutFeed};
 use super::stats::LiveStats;
 use crate::io::AudioSink;
@@ -217,7 +217,15 @@ impl AudioSink for SoundSink {
                 Some(drift) => {
                     let fill = self.feed.queued() / cdev;
                     self.stats.set_correction_ppm(drift.ppm());
-                    let out = drift.process(piece, fill, self.target_frames);
+                    let figures = self.stats.figures();
+                    let ring = RingView {
+                        fill_frames: fill,
+                        device_frames: self.feed.frames_out(),
+                        target_frames: self.target_frames,
+                        measured_ppm: figures.clock_ppm,
+                        disruptions: figures.underruns + figures.dropouts,
+                    };
+                    let out = drift.process(piece, ring);
                     map_channels(out, cin, &mut self.scratch, cdev)
                 }
                 None => map_channels(piece, cin, &mut self.scratch, cdev),
