@@ -207,7 +207,7 @@ fn refusals_name_the_flag() {
         String::from_utf8_lossy(&out.stderr).into_owned()
     };
     let cases: [(&[&str], &str); 5] = [
-        (&["--mode", "usb", "--offsets", "0:8333:3"], "--mode"),
+        (&["--mode", "fm", "--offsets", "0:8333:3"], "--mode"),
         (&["--mode", "am", "--offsets", "0:8333"], "--offsets"),
         (&["--mode", "am", "--offsets", "120000:8333:3"], "--offsets"),
         (&["--mode", "am", "--carriers", "1:8333:3"], "--carriers"),
