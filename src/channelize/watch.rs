@@ -390,13 +390,11 @@ struct Strand {
     /// Its bin's column in the compacted frames.
     column: usize,
     offset_hz: f64,
-    receiver: Box<dyn Receiver>,
-    samples: Vec<Complex32>,
-    audio: Vec<f32>,
-    channels: usize,
+    /// How to build the receiver.
+    recipe: Recipe,
+    /// The receiver and its buffers, built when the squelch first opens.
+    parts: Option<Parts>,
     audio_rate: f64,
-    /// Receiver plus channelizer delay, seconds.
-    delay_s: f64,
     /// Whether the receiver is running (the squelch is open).
     running: bool,
     /// Audio samples (frames × channels) still to drop after a start: pre-roll and delay.
@@ -411,6 +409,51 @@ struct Strand {
     /// Whether the WAV was started (the channel was active).
     written: bool,
     input: PathBuf,
+}
+
+/// What a strand needs to build its receiver.
+#[derive(Debug, Clone, Copy)]
+struct Recipe {
+    mode: Mode,
+    config: ReceiverConfig,
+    bin_centre_hz: f64,
+    bandwidth_hz: f64,
+    /// The channelizer's delay, seconds.
+    extra_delay_s: f64,
+    /// Bin samples per window.
+    frames: usize,
+}
+
+/// A strand's receiver and buffers.
+struct Parts {
+    receiver: Box<dyn Receiver>,
+    samples: Vec<Complex32>,
+    audio: Vec<f32>,
+    channels: usize,
+    /// Receiver plus channelizer delay, seconds.
+    delay_s: f64,
+}
+
+/// The carrier meter's window inside a strand's receiver, seconds: watch does not use its
+/// readings, and its per-window work (the noise-corrected modulation peaks) is the costliest
+/// part of a running receiver at 0.1 s windows; 1 s keeps that to a tenth with its per-window
+/// buffer still small.
+const STRAND_METER_WINDOW_S: f64 = 1.0;
+
+impl Recipe {
+    fn build(&self, offset_hz: f64) -> Result<Parts> {
+        let rate = self.config.input_rate;
+        let front = BinFrontEnd::new(rate, self.bin_centre_hz, offset_hz, self.bandwidth_hz)?;
+        let mut receiver = strand_receiver(self.mode, &self.config, front)?;
+        receiver.set_meter_window(STRAND_METER_WINDOW_S)?;
+        Ok(Parts {
+            channels: receiver.audio_channels(),
+            delay_s: receiver.delay() / rate + self.extra_delay_s,
+            audio: vec![0.0; receiver.max_output_len(self.frames)],
+            samples: vec![Complex32::default(); self.frames],
+            receiver,
+        })
+    }
 }
 
 /// The receiver for `mode` on a bin front end (every mode: the squelch reads the band meter).
@@ -468,13 +511,19 @@ impl Strand {
             return Ok(());
         }
         if !self.running {
-            self.receiver.reset();
+            let parts = match self.parts.as_mut() {
+                Some(p) => {
+                    p.receiver.reset();
+                    p
+                }
+                None => self.parts.insert(self.recipe.build(self.offset_hz)?),
+            };
             let fed: usize = preroll.iter().map(|p| p.len).sum();
-            let lead = fed as f64 / fs + self.delay_s;
-            self.drop = (lead * self.audio_rate).round() as usize * self.channels;
+            let lead = fed as f64 / fs + parts.delay_s;
+            self.drop = (lead * self.audio_rate).round() as usize * parts.channels;
             let target = (start_s * self.audio_rate).round() as u64;
             if self.released > target {
-                self.drop += (self.released - target) as usize * self.channels;
+                self.drop += (self.released - target) as usize * parts.channels;
             }
             self.pad_to(target)?;
             for p in preroll {
@@ -487,14 +536,19 @@ impl Strand {
 
     /// Runs the receiver on this channel's samples of `w` and writes what is past `drop`.
     fn feed(&mut self, w: &Window, columns: usize) -> Result<()> {
+        let Some(parts) = self.parts.as_mut() else {
+            return Ok(());
+        };
         let n = w.frames.len() / columns;
-        for (s, f) in self.samples.iter_mut().zip(w.frames.chunks_exact(columns)) {
+        for (s, f) in parts.samples.iter_mut().zip(w.frames.chunks_exact(columns)) {
             *s = f[self.column];
         }
-        let (_, produced) = self.receiver.process(&self.samples[..n], &mut self.audio);
+        let (_, produced) = parts
+            .receiver
+            .process(&parts.samples[..n], &mut parts.audio);
         let skip = self.drop.min(produced);
         self.drop -= skip;
-        let out = &mut self.audio[skip..produced];
+        let out = &mut parts.audio[skip..produced];
         out.iter_mut()
             .filter(|x| !x.is_finite())
             .for_each(|x| *x = 0.0);
@@ -502,28 +556,29 @@ impl Strand {
             if let Some(sink) = self.sink.as_mut() {
                 sink.write(out)?;
             }
-            self.released += (out.len() / self.channels) as u64;
+            self.released += (out.len() / parts.channels) as u64;
         }
         Ok(())
     }
 
     /// Starts the file if need be and writes zeros up to audio frame `target`.
     fn pad_to(&mut self, target: u64) -> Result<()> {
+        let channels = self.parts.as_ref().map_or(1, |p| p.channels);
         if self.sink.is_none() {
             let sink = WavAudioSink::create_checked(
                 &self.path,
                 &[self.input.as_path()],
                 self.audio_rate as u32,
-                self.channels as u16,
+                channels as u16,
                 WavEncoding::Float32,
             )?;
             self.sink = Some(sink);
             self.written = true;
         }
         let sink = self.sink.as_mut().expect("started just above");
-        let mut left = target.saturating_sub(self.released) as usize * self.channels;
+        let mut left = target.saturating_sub(self.released) as usize * channels;
         while left > 0 {
-            let k = left.min(ZEROS.len() / self.channels * self.channels);
+            let k = left.min(ZEROS.len() / channels * channels);
             sink.write(&ZEROS[..k])?;
             left -= k;
         }
@@ -630,7 +685,9 @@ pub fn run_watch(
     let mut used: Vec<usize> = Vec::new();
     let mut bands = Vec::with_capacity(offsets.len());
     for (k, &offset) in offsets.iter().enumerate() {
-        if offset.abs() + NOISE_VIEW * bandwidth >= 0.45 * fs {
+        // The channel's band (±bandwidth) must lie inside the recording; its bin may wrap
+        // round ±fs/2 like any other (the channelizer's bins are cyclic).
+        if offset.abs() + bandwidth > 0.5 * fs {
             let name = match request.frequencies {
                 PlanFrequencies::Offsets => "offsets",
                 PlanFrequencies::Carriers => "carriers",
@@ -644,7 +701,7 @@ pub fn run_watch(
                         .unwrap_or(0.0),
                 format!(
                     "channel {k} lies outside the recording's ±{:.0} Hz (with its bandwidth)",
-                    0.45 * fs
+                    0.5 * fs
                 ),
             ));
         }
@@ -656,16 +713,25 @@ pub fn run_watch(
                 used.len() - 1
             }
         };
-        let front = BinFrontEnd::new(design.bin_rate, centre, offset, bandwidth)?;
         let mut config = ReceiverConfig::new(design.bin_rate, offset - centre);
         config.options.bandwidth_hz = Some(bandwidth);
         config.options.audio_rate = request.audio_rate;
         let (lo, hi) = occupied_band_hz(&request.mode.spec().resolve(&config)?);
         bands.push((offset, lo, hi));
-        let receiver = strand_receiver(request.mode, &config, front)?;
-        let channels = receiver.audio_channels();
-        let delay_s = receiver.delay() / design.bin_rate + bank_delay_s;
-        let audio = vec![0.0; receiver.max_output_len(frames_per_window)];
+        let recipe = Recipe {
+            mode: request.mode,
+            config,
+            bin_centre_hz: centre,
+            bandwidth_hz: bandwidth,
+            extra_delay_s: bank_delay_s,
+            frames: frames_per_window,
+        };
+        // Every channel's receiver is checked now (so a bad request fails before any file
+        // is made) but built when its squelch first opens.
+        BinFrontEnd::new(design.bin_rate, centre, offset, bandwidth)?;
+        if k == 0 {
+            recipe.build(offset)?;
+        }
         let hz = match info.centre_frequency {
             Some(c) => format!("{:.0}Hz", c + offset),
             None => format!("{offset:+.0}Hz"),
@@ -674,11 +740,7 @@ pub fn run_watch(
             index: k,
             column,
             offset_hz: offset,
-            samples: vec![Complex32::default(); frames_per_window],
-            audio,
-            channels,
             audio_rate: request.audio_rate,
-            delay_s,
             running: false,
             drop: 0,
             squelch: Squelch::new(squelch),
@@ -688,7 +750,8 @@ pub fn run_watch(
             sink: None,
             written: false,
             input: request.input.clone(),
-            receiver,
+            recipe,
+            parts: None,
         });
     }
     let mut meter = BandMeter::new(fs, bandwidth, &bands)?;
