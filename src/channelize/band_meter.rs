@@ -25,8 +25,12 @@ use std::sync::Arc;
 
 /// Transforms averaged per window: 16 degrees of freedom per bin (common practice, no source).
 pub const FFTS_PER_WINDOW: usize = 8;
-/// Spectrum bins per channel bandwidth at least (so a channel's band is read by ≥ 8 bins).
-const BINS_PER_BANDWIDTH: f64 = 8.0;
+/// Bins left out at each edge of a channel's band: the Hann window's main lobe is ±2 bins
+/// (common practice, no source).
+const EDGE_GUARD_BINS: f64 = 2.0;
+/// Spectrum bins per channel bandwidth at least (so a channel's band is read by ≥ 12 bins
+/// inside its edge guards).
+const BINS_PER_BANDWIDTH: f64 = 16.0;
 
 /// Per-window readings of many channels from one wideband stream.
 pub struct BandMeter {
@@ -63,7 +67,7 @@ impl BandMeter {
     /// ```
     /// use amrx::channelize::band_meter::BandMeter;
     /// let meter = BandMeter::new(256_000.0, 3_000.0, &[(0.0, -3_000.0, 3_000.0)])?;
-    /// assert_eq!(meter.fft_len(), 1024);
+    /// assert_eq!(meter.fft_len(), 2048);
     /// # Ok::<(), amrx::Error>(())
     /// ```
     pub fn new(rate: f64, bandwidth_hz: f64, channels: &[(f64, f64, f64)]) -> Result<Self> {
@@ -89,12 +93,18 @@ impl BandMeter {
         let bands = channels
             .iter()
             .map(|&(offset, lo, hi)| {
-                let a = ((offset + lo) / spacing + half)
+                // Two bins in from each edge, so a line just outside the band (the next
+                // channel's carrier, the receiver's DC spike) leaks in only its window's side
+                // lobes; at least the centre bin.
+                let centre = ((offset + 0.5 * (lo + hi)) / spacing + half).round();
+                let a = ((offset + lo) / spacing + half + EDGE_GUARD_BINS)
                     .ceil()
-                    .clamp(0.0, len as f64 - 1.0);
-                let b = ((offset + hi) / spacing + half)
+                    .min(centre);
+                let b = ((offset + hi) / spacing + half - EDGE_GUARD_BINS)
                     .floor()
-                    .clamp(a, len as f64 - 1.0);
+                    .max(centre);
+                let a = a.clamp(0.0, len as f64 - 1.0);
+                let b = b.clamp(a, len as f64 - 1.0);
                 (a as usize, b as usize)
             })
             .collect();
