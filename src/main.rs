@@ -146,7 +146,7 @@ struct ScanArgs {
 struct WatchArgs {
     /// The IQ input (NAME.sigmf-meta or NAME.sigmf-data, an IQ WAV, a raw file, or -).
     input: PathBuf,
-    /// Receive mode (one with a carrier: am, sam, vsb).
+    /// Receive mode (am, sam, dsb, usb, lsb, isb, vsb).
     #[arg(long, allow_negative_numbers = true, value_parser = parse_mode)]
     mode: Mode,
     /// Channels relative to the recording centre: FIRST:STEP:COUNT in Hz.
@@ -786,9 +786,14 @@ fn watch(args: &WatchArgs) -> Result<(), String> {
         out_dir: args.out_dir.clone(),
     };
     let bar = progress_bar(args.quiet, "watch");
-    let outcome = amrx::channelize::run_watch(&request, &|n, open| {
-        bar.set_position(n);
-        bar.set_prefix(format!("watch: {open} open"));
+    bar.set_style(
+        samples_style(false)
+            .template(WATCH_TEMPLATE)
+            .unwrap_or_else(|_| samples_style(false)),
+    );
+    let outcome = amrx::channelize::run_watch(&request, &mut |p| {
+        bar.set_position(p.samples);
+        bar.set_message(open_channels_line(p));
     });
     bar.finish_and_clear();
     let outcome = outcome.map_err(|e| with_input(&args.input, e))?;
@@ -813,6 +818,36 @@ fn watch(args: &WatchArgs) -> Result<(), String> {
         }
     }
     Ok(())
+}
+
+/// The live view of `watch`: the counter, then a line of the open channels (cut at the
+/// terminal's width by the bar).
+const WATCH_TEMPLATE: &str =
+    "{spinner} watch {done_ms} MS  {msps}  {elapsed} elapsed\n  {wide_msg}";
+
+/// "N open:" and the open channels, strongest first, each as its frequency (MHz, or the
+/// offset in kHz without a centre) and its reading in dB; a line the bar cuts at the
+/// terminal's width, so with many channels open the weakest are the ones left out.
+fn open_channels_line(p: &amrx::channelize::watch::WatchProgress) -> String {
+    let mut open = p.open.clone();
+    open.sort_by(|a, b| {
+        b.cnr_db
+            .unwrap_or(f64::NEG_INFINITY)
+            .total_cmp(&a.cnr_db.unwrap_or(f64::NEG_INFINITY))
+    });
+    let mut line = format!("{:.1} s, {} open", p.seconds, open.len());
+    for (i, c) in open.iter().enumerate() {
+        line.push_str(if i == 0 { ": " } else { " | " });
+        match c.frequency_hz {
+            Some(f) => line.push_str(&format!("{:.4}", f / 1e6)),
+            None => line.push_str(&format!("{:+.2}k", c.offset_hz / 1e3)),
+        }
+        match c.cnr_db {
+            Some(db) => line.push_str(&format!(" {db:.0} dB")),
+            None => line.push_str(" -"),
+        }
+    }
+    line
 }
 
 fn scan(args: &ScanArgs) -> Result<(), String> {

@@ -207,7 +207,7 @@ fn refusals_name_the_flag() {
         String::from_utf8_lossy(&out.stderr).into_owned()
     };
     let cases: [(&[&str], &str); 5] = [
-        (&["--mode", "usb", "--offsets", "0:8333:3"], "--mode"),
+        (&["--mode", "fm", "--offsets", "0:8333:3"], "--mode"),
         (&["--mode", "am", "--offsets", "0:8333"], "--offsets"),
         (&["--mode", "am", "--offsets", "120000:8333:3"], "--offsets"),
         (&["--mode", "am", "--carriers", "1:8333:3"], "--carriers"),
@@ -221,4 +221,70 @@ fn refusals_name_the_flag() {
         assert!(said.contains(flag), "{args:?}: {said}");
     }
     assert_eq!(std::fs::read_dir(dir.join("wavs")).unwrap().count(), 0);
+}
+
+/// The squelch in every mode: for dsb, usb, lsb (no carrier) and am, a station that comes
+/// (1.0 s) and goes (2.5 s) on one channel beside an empty one is logged once, timed within
+/// 0.25 s, and its audio carries its tone; the empty channel stays shut and gets no file.
+#[test]
+fn the_squelch_opens_and_closes_in_every_mode() {
+    for mode in ["dsb", "usb", "lsb", "am"] {
+        let dir = Path::new(env!("CARGO_TARGET_TMPDIR")).join(format!("watch_mode_{mode}"));
+        let _ = std::fs::remove_dir_all(&dir);
+        std::fs::create_dir_all(&dir).unwrap();
+        let mu = if mode == "am" { r#""mu": 0.5,"# } else { "" };
+        let scene = format!(
+            r#"{{ "sample_rate": {RATE}, "centre_frequency": {CENTRE}, "duration_s": 3.5, "seed": 44,
+  "noise": {{ "density_db_hz": -100 }},
+  "emissions": [ {{ "label": "WMODE-1", "mode": "{mode}", "offset_hz": {}, "amplitude": 0.05, {mu}
+     "message": {{ "type": "tone", "frequency_hz": 900 }}, "start_s": 1.0, "stop_s": 2.5 }} ] }}"#,
+            FIRST + 2.0 * STEP
+        );
+        std::fs::write(dir.join("scene.json"), scene).unwrap();
+        run_scene(&dir.join("scene.json"), &dir.join("rec"), None).unwrap();
+        let json = dir.join("summary.json");
+        let out = Command::new(env!("CARGO_BIN_EXE_amrx"))
+            .arg("watch")
+            .arg(dir.join("rec.sigmf-meta"))
+            .args(["--mode", mode, "--bandwidth", "3000", "--quiet"])
+            .arg("--offsets")
+            .arg(format!("{}:{STEP}:2", FIRST + STEP))
+            .arg("--out-dir")
+            .arg(dir.join("wavs"))
+            .arg("--json")
+            .arg(&json)
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{mode}: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let summary: serde_json::Value =
+            serde_json::from_slice(&std::fs::read(&json).unwrap()).unwrap();
+        let channels = summary["channels"].as_array().unwrap();
+        assert!(channels[0]["file"].is_null(), "{mode}: {}", channels[0]);
+        assert!(channels[0]["transmissions"].as_array().unwrap().is_empty());
+        let tx = channels[1]["transmissions"].as_array().unwrap();
+        assert_eq!(tx.len(), 1, "{mode}: {}", channels[1]);
+        let (s, e) = (
+            tx[0]["start_s"].as_f64().unwrap(),
+            tx[0]["end_s"].as_f64().unwrap(),
+        );
+        eprintln!(
+            "{mode}: heard {s:.2}..{e:.2} s, peak {:.1} dB",
+            tx[0]["peak_cnr_db"].as_f64().unwrap()
+        );
+        assert!(
+            (s - 1.0).abs() <= 0.25 && (e - 2.5).abs() <= 0.25,
+            "{mode}: {s}..{e}"
+        );
+        let (_, x) = read_wav(&dir.join("wavs").join(channels[1]["file"].as_str().unwrap()));
+        let on = &x[(1.5 * AUDIO) as usize..(2.3 * AUDIO) as usize];
+        // The tone stands ≥ 20 dB over a tone-free frequency of the same audio (the tone is
+        // 900 Hz; 2100 Hz holds only noise at 36 dB CNR).
+        let db = 10.0 * (tone_power(on, 900.0) / tone_power(on, 2100.0).max(1e-30)).log10();
+        assert!(db >= 20.0, "{mode}: the tone only {db:.1} dB up");
+        assert!(x[..(0.7 * AUDIO) as usize].iter().all(|&v| v == 0.0));
+    }
 }

@@ -1,29 +1,39 @@
 //! `amrx watch`: every channel of a plan received at once. One pass of the polyphase
 //! channelizer splits the recording into bins; each channel is the nearest bin, tuned by a
 //! residual shift ([`BinFrontEnd`]), demodulated by the mode's detector in the usual receiver
-//! assembly, squelched on the carrier meter's CNR, and written as a WAV aligned with the
-//! recording (silent while squelched).
+//! assembly, and written as a WAV aligned with the recording (silent while squelched).
 //!
-//! Memory is bounded: the recording is read in blocks; each strand keeps only the audio its
-//! squelch has not decided yet (one meter window plus the receiver's delay).
+//! Squelch, in every mode: per window of [`WINDOW_S`], the [`BandMeter`] reads each channel's
+//! power in its occupied band over the band's noise floor; the [`Squelch`] opens on that
+//! reading with hysteresis and a hang time. A squelched channel costs only that reading: its
+//! receiver runs only while the squelch is open, restarted on opening with the previous
+//! window as pre-roll (so its filters and loops have settled when the audio starts at the
+//! opening window's start). Files are made only for channels ever active; the stretches
+//! before and between transmissions are written as zeros.
+//!
+//! Memory is bounded: the recording is read one window at a time, and only the channelizer
+//! bins some channel uses are kept, for the windows in flight and the pre-roll.
 
+use super::band_meter::BandMeter;
 use super::channelizer::PolyphaseChannelizer;
 use super::front_end::{BinFrontEnd, NOISE_VIEW};
 use crate::block::Block;
+use crate::demod::channel_snr::occupied_band_hz;
 use crate::demod::{
-    AmDetector, Assembly, Mode, ModeDetector, Receiver, ReceiverConfig, SamDetector, VsbDetector,
+    AmDetector, Assembly, DsbDetector, IsbDetector, Mode, ModeDetector, Receiver, ReceiverConfig,
+    SamDetector, SsbDetector, VsbDetector,
 };
 use crate::dsp::{design_lowpass, LowpassSpec};
 use crate::io::open::{open_input, InputOptions};
 use crate::io::{AudioSink, WavAudioSink, WavEncoding};
-use crate::measure::WindowReading;
 use crate::{Complex32, Error, Result};
 use serde::Serialize;
 use std::collections::VecDeque;
 use std::path::{Path, PathBuf};
 use std::str::FromStr;
 
-/// Default squelch threshold: the carrier meter's own "carrier present" CNR, in dB.
+/// Default squelch threshold in dB: the carrier meter's "carrier present" CNR, applied to the
+/// band meter's reading (which for AM is the carrier's CNR plus the sidebands' share).
 pub const DEFAULT_SQUELCH_DB: f64 = crate::measure::carrier_meter::CARRIER_ON_CNR_DB;
 /// The squelch closes this far below its opening threshold (common practice, no source).
 pub const SQUELCH_HYSTERESIS_DB: f64 = 3.0;
@@ -32,8 +42,10 @@ pub const SQUELCH_HYSTERESIS_DB: f64 = 3.0;
 pub const SQUELCH_HANG_S: f64 = 0.3;
 /// Stopband attenuation of the channelizer's prototype in dB (common practice, no source).
 const PROTOTYPE_ATTENUATION_DB: f64 = 70.0;
-/// Channelizer frames per block read.
-const FRAMES_PER_BLOCK: usize = 2048;
+/// Seconds per squelch decision: one band-meter window (common practice, no source).
+pub const WINDOW_S: f64 = 0.1;
+/// Channelizer frames computed per call (a small buffer; only the bins in use are kept).
+const FRAMES_PER_CHUNK: usize = 32;
 
 /// A channel plan `FIRST:STEP:COUNT`: channel k at FIRST + k·STEP Hz.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -297,7 +309,7 @@ pub struct WatchRequest {
     pub input: PathBuf,
     /// How to read it.
     pub input_options: InputOptions,
-    /// The mode (one with a carrier: am, sam, vsb; the squelch reads the carrier's CNR).
+    /// The mode (any; the squelch reads the band meter, [`BandMeter`]).
     pub mode: Mode,
     /// The channels.
     pub plan: ChannelPlan,
@@ -373,30 +385,78 @@ pub struct WatchOutcome {
 
 /// One channel's receiver, squelch and WAV.
 struct Strand {
-    bin: usize,
+    /// This channel's position in the plan (its reading's index).
+    index: usize,
+    /// Its bin's column in the compacted frames.
+    column: usize,
     offset_hz: f64,
-    receiver: Box<dyn Receiver>,
-    samples: Vec<Complex32>,
-    audio: Vec<f32>,
-    channels: usize,
+    /// How to build the receiver.
+    recipe: Recipe,
+    /// The receiver and its buffers, built when the squelch first opens.
+    parts: Option<Parts>,
     audio_rate: f64,
-    /// Audio samples (frames × channels) still to drop for the delay.
-    skip: usize,
-    /// Seconds to subtract from the meter's window times (the channelizer's delay).
-    window_shift_s: f64,
-    pending: VecDeque<f32>,
-    decisions: VecDeque<(f64, f64, bool)>,
+    /// Whether the receiver is running (the squelch is open).
+    running: bool,
+    /// Audio samples (frames × channels) still to drop after a start: pre-roll and delay.
+    drop: usize,
     squelch: Squelch,
-    released_frames: u64,
+    /// The last window's reading.
+    last_db: Option<f64>,
+    /// Audio frames written (or owed as zeros before the file existed).
+    released: u64,
     path: PathBuf,
     sink: Option<WavAudioSink>,
     /// Whether the WAV was started (the channel was active).
     written: bool,
     input: PathBuf,
-    out: Vec<f32>,
 }
 
-/// The receiver for `mode` on a bin front end; modes with a carrier meter only.
+/// What a strand needs to build its receiver.
+#[derive(Debug, Clone, Copy)]
+struct Recipe {
+    mode: Mode,
+    config: ReceiverConfig,
+    bin_centre_hz: f64,
+    bandwidth_hz: f64,
+    /// The channelizer's delay, seconds.
+    extra_delay_s: f64,
+    /// Bin samples per window.
+    frames: usize,
+}
+
+/// A strand's receiver and buffers.
+struct Parts {
+    receiver: Box<dyn Receiver>,
+    samples: Vec<Complex32>,
+    audio: Vec<f32>,
+    channels: usize,
+    /// Receiver plus channelizer delay, seconds.
+    delay_s: f64,
+}
+
+/// The carrier meter's window inside a strand's receiver, seconds: watch does not use its
+/// readings, and its per-window work (the noise-corrected modulation peaks) is the costliest
+/// part of a running receiver at 0.1 s windows; 1 s keeps that to a tenth with its per-window
+/// buffer still small.
+const STRAND_METER_WINDOW_S: f64 = 1.0;
+
+impl Recipe {
+    fn build(&self, offset_hz: f64) -> Result<Parts> {
+        let rate = self.config.input_rate;
+        let front = BinFrontEnd::new(rate, self.bin_centre_hz, offset_hz, self.bandwidth_hz)?;
+        let mut receiver = strand_receiver(self.mode, &self.config, front)?;
+        receiver.set_meter_window(STRAND_METER_WINDOW_S)?;
+        Ok(Parts {
+            channels: receiver.audio_channels(),
+            delay_s: receiver.delay() / rate + self.extra_delay_s,
+            audio: vec![0.0; receiver.max_output_len(self.frames)],
+            samples: vec![Complex32::default(); self.frames],
+            receiver,
+        })
+    }
+}
+
+/// The receiver for `mode` on a bin front end (every mode: the squelch reads the band meter).
 fn strand_receiver(
     mode: Mode,
     config: &ReceiverConfig,
@@ -419,111 +479,121 @@ fn strand_receiver(
         Mode::Am => build::<AmDetector>(mode, config, front),
         Mode::Sam => build::<SamDetector>(mode, config, front),
         Mode::Vsb => build::<VsbDetector>(mode, config, front),
-        _ => Err(Error::parameter(
-            "mode",
-            mode.name(),
-            "watch squelches on the carrier's CNR: use a mode with a carrier (am, sam, vsb)",
-        )),
+        Mode::Dsb => build::<DsbDetector>(mode, config, front),
+        Mode::Usb | Mode::Lsb => build::<SsbDetector>(mode, config, front),
+        Mode::Isb => build::<IsbDetector>(mode, config, front),
     }
 }
 
+/// One window of the recording as the strands need it: where it starts, each channel's
+/// reading, and the channelizer frames of the bins in use (`columns` per frame).
+struct Window {
+    start: u64,
+    len: usize,
+    readings: Vec<Option<f64>>,
+    frames: Vec<Complex32>,
+}
+
+/// Zeros written for squelched stretches.
+const ZEROS: [f32; 4096] = [0.0; 4096];
+
 impl Strand {
-    /// Gathers this strand's bin from `frames` (M per frame) and runs the receiver.
-    fn step(&mut self, frames: &[Complex32], m: usize) -> Result<()> {
-        let n = frames.len() / m;
-        for (s, f) in self.samples.iter_mut().zip(frames.chunks_exact(m)) {
-            *s = f[self.bin];
+    /// One window: the squelch decides on its reading; a closed squelch costs nothing more; on
+    /// opening the receiver restarts on the pre-roll windows (its audio dropped) and the file
+    /// is brought up to the window's start with zeros; while open the window's audio is written.
+    fn window(&mut self, w: &Window, preroll: &[&Window], fs: f64, columns: usize) -> Result<()> {
+        let start_s = w.start as f64 / fs;
+        let end_s = (w.start + w.len as u64) as f64 / fs;
+        self.last_db = w.readings[self.index];
+        let open = self.squelch.update(start_s, end_s, self.last_db);
+        if !open {
+            self.running = false;
+            return Ok(());
         }
-        let (_, produced) = self.receiver.process(&self.samples[..n], &mut self.audio);
-        self.take(produced);
-        self.decide();
-        self.release(false)
-    }
-
-    fn take(&mut self, produced: usize) {
-        let drop = self.skip.min(produced);
-        self.skip -= drop;
-        self.pending.extend(&self.audio[drop..produced]);
-    }
-
-    fn decide(&mut self) {
-        for w in self.receiver.take_windows() {
-            let WindowReading {
-                start_s,
-                duration_s,
-                cnr_db,
-                ..
-            } = w;
-            // The first window starts at the first input; less the channelizer's delay it
-            // would start before the recording.
-            let end = start_s - self.window_shift_s + duration_s;
-            let start = (start_s - self.window_shift_s).max(0.0);
-            let open = self.squelch.update(start, end, cnr_db);
-            self.decisions.push_back((start, end, open));
-        }
-    }
-
-    /// Writes every pending frame whose window is decided (all of them when `last`).
-    fn release(&mut self, last: bool) -> Result<()> {
-        let c = self.channels;
-        self.out.clear();
-        let before = self.released_frames;
-        let mut any_open = false;
-        while self.pending.len() >= c {
-            let t = (before + (self.out.len() / c) as u64) as f64 / self.audio_rate;
-            while self.decisions.front().is_some_and(|d| d.1 <= t) {
-                self.decisions.pop_front();
-            }
-            let open = match self.decisions.front() {
-                Some(&(start, _, open)) => t >= start && open,
-                None if last => false,
-                None => break,
+        if !self.running {
+            let parts = match self.parts.as_mut() {
+                Some(p) => {
+                    p.receiver.reset();
+                    p
+                }
+                None => self.parts.insert(self.recipe.build(self.offset_hz)?),
             };
-            any_open |= open;
-            for _ in 0..c {
-                let x = self.pending.pop_front().unwrap_or(0.0);
-                self.out.push(if open && x.is_finite() { x } else { 0.0 });
+            let fed: usize = preroll.iter().map(|p| p.len).sum();
+            let lead = fed as f64 / fs + parts.delay_s;
+            self.drop = (lead * self.audio_rate).round() as usize * parts.channels;
+            let target = (start_s * self.audio_rate).round() as u64;
+            if self.released > target {
+                self.drop += (self.released - target) as usize * parts.channels;
             }
-        }
-        self.released_frames += (self.out.len() / c) as u64;
-        if self.sink.is_none() && any_open {
-            let rate = self.audio_rate as u32;
-            let mut sink = WavAudioSink::create_checked(
-                &self.path,
-                &[self.input.as_path()],
-                rate,
-                c as u16,
-                WavEncoding::Float32,
-            )?;
-            let zeros = vec![0.0f32; 4096 * c];
-            let mut left = before as usize * c;
-            while left > 0 {
-                let k = left.min(zeros.len());
-                sink.write(&zeros[..k])?;
-                left -= k;
+            self.pad_to(target)?;
+            for p in preroll {
+                self.feed(p, columns)?;
             }
-            self.sink = Some(sink);
-            self.written = true;
+            self.running = true;
         }
-        if let Some(sink) = self.sink.as_mut() {
-            sink.write(&self.out)?;
+        self.feed(w, columns)
+    }
+
+    /// Runs the receiver on this channel's samples of `w` and writes what is past `drop`.
+    fn feed(&mut self, w: &Window, columns: usize) -> Result<()> {
+        let Some(parts) = self.parts.as_mut() else {
+            return Ok(());
+        };
+        let n = w.frames.len() / columns;
+        for (s, f) in parts.samples.iter_mut().zip(w.frames.chunks_exact(columns)) {
+            *s = f[self.column];
+        }
+        let (_, produced) = parts
+            .receiver
+            .process(&parts.samples[..n], &mut parts.audio);
+        let skip = self.drop.min(produced);
+        self.drop -= skip;
+        let out = &mut parts.audio[skip..produced];
+        out.iter_mut()
+            .filter(|x| !x.is_finite())
+            .for_each(|x| *x = 0.0);
+        if !out.is_empty() {
+            if let Some(sink) = self.sink.as_mut() {
+                sink.write(out)?;
+            }
+            self.released += (out.len() / parts.channels) as u64;
         }
         Ok(())
     }
 
-    /// The end: the receiver's tail, the squelch's last decisions, the audio cut or padded to
-    /// `frames` frames (the recording's length at the audio rate).
+    /// Starts the file if need be and writes zeros up to audio frame `target`.
+    fn pad_to(&mut self, target: u64) -> Result<()> {
+        let channels = self.parts.as_ref().map_or(1, |p| p.channels);
+        if self.sink.is_none() {
+            let sink = WavAudioSink::create_checked(
+                &self.path,
+                &[self.input.as_path()],
+                self.audio_rate as u32,
+                channels as u16,
+                WavEncoding::Float32,
+            )?;
+            self.sink = Some(sink);
+            self.written = true;
+        }
+        let sink = self.sink.as_mut().expect("started just above");
+        let mut left = target.saturating_sub(self.released) as usize * channels;
+        while left > 0 {
+            let k = left.min(ZEROS.len() / channels * channels);
+            sink.write(&ZEROS[..k])?;
+            left -= k;
+        }
+        self.released = self.released.max(target);
+        Ok(())
+    }
+
+    /// The end: an active channel's file padded with zeros to `frames` frames (the
+    /// recording's length at the audio rate) and closed.
     fn finish(&mut self, frames: u64) -> Result<()> {
-        let mut tail = vec![0.0f32; self.receiver.flush_output_len()];
-        let n = self.receiver.flush(&mut tail);
-        let drop = self.skip.min(n);
-        self.skip -= drop;
-        self.pending.extend(&tail[drop..n]);
-        self.decide();
-        let want = frames.saturating_sub(self.released_frames) as usize * self.channels;
-        self.pending.resize(want, 0.0);
-        self.release(true)?;
+        self.running = false;
         self.squelch.finish();
+        if self.sink.is_some() {
+            self.pad_to(frames)?;
+        }
         if let Some(sink) = self.sink.take() {
             sink.finish()?;
         }
@@ -531,15 +601,44 @@ impl Strand {
     }
 }
 
-/// Runs `amrx watch`: `progress(samples read, channels open)` after each block.
-pub fn run_watch(request: &WatchRequest, progress: &dyn Fn(u64, usize)) -> Result<WatchOutcome> {
-    if !request.squelch_db.is_finite() {
-        return Err(Error::parameter(
-            "squelch_db",
-            request.squelch_db,
-            "must be a finite number of dB",
-        ));
-    }
+/// An open channel as the live view shows it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct OpenChannel {
+    /// Offset from the recording centre, Hz.
+    pub offset_hz: f64,
+    /// Absolute frequency, Hz, when the centre is known.
+    pub frequency_hz: Option<f64>,
+    /// The last window's reading, dB.
+    pub cnr_db: Option<f64>,
+}
+
+/// Where a run is, after each window.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct WatchProgress {
+    /// Input samples read.
+    pub samples: u64,
+    /// Seconds of the recording done.
+    pub seconds: f64,
+    /// The channels whose squelch is open, in plan order.
+    pub open: Vec<OpenChannel>,
+}
+
+/// Windows the producer may run ahead of the strands.
+const QUEUE_WINDOWS: usize = 2;
+/// Windows of pre-roll fed to a receiver before the window its squelch opens on.
+const PREROLL_WINDOWS: usize = 1;
+
+/// Runs `amrx watch`: `progress` after each window (about 0.1 s of the recording).
+///
+/// Threads: one reads the recording, runs the band meter and the channelizer and sends each
+/// window's readings and frames over a bounded channel ([`QUEUE_WINDOWS`] deep; buffers come
+/// back for reuse); the caller's thread runs the strands, in parallel across cores with rayon
+/// (feature `lab`). Memory is bounded by the window buffers in flight, whatever the input's
+/// length.
+pub fn run_watch(
+    request: &WatchRequest,
+    progress: &mut dyn FnMut(&WatchProgress),
+) -> Result<WatchOutcome> {
     let squelch = SquelchSettings::new(request.squelch_db)?;
     if !(request.audio_rate.is_finite()
         && request.audio_rate >= 1.0
@@ -579,14 +678,16 @@ pub fn run_watch(request: &WatchRequest, progress: &dyn Fn(u64, usize)) -> Resul
         }
         std::fs::create_dir(&request.out_dir).map_err(|e| Error::io(&request.out_dir, e))?;
     }
-    let block = FRAMES_PER_BLOCK * design.decimation;
-    let mut buf = vec![Complex32::default(); block];
-    let mut frames =
-        vec![Complex32::default(); bank.max_output_len(block).max(bank.flush_output_len())];
-    let max_frames = frames.len() / m;
+    // Whole frames per window: the window's frames are exactly those of its inputs.
+    let frames_per_window = ((WINDOW_S * fs / design.decimation as f64).round() as usize).max(1);
+    let window_len = frames_per_window * design.decimation;
     let mut strands = Vec::with_capacity(offsets.len());
+    let mut used: Vec<usize> = Vec::new();
+    let mut bands = Vec::with_capacity(offsets.len());
     for (k, &offset) in offsets.iter().enumerate() {
-        if offset.abs() + NOISE_VIEW * bandwidth >= 0.45 * fs {
+        // The channel's band (±bandwidth) must lie inside the recording; its bin may wrap
+        // round ±fs/2 like any other (the channelizer's bins are cyclic).
+        if offset.abs() + bandwidth > 0.5 * fs {
             let name = match request.frequencies {
                 PlanFrequencies::Offsets => "offsets",
                 PlanFrequencies::Carriers => "carriers",
@@ -600,59 +701,145 @@ pub fn run_watch(request: &WatchRequest, progress: &dyn Fn(u64, usize)) -> Resul
                         .unwrap_or(0.0),
                 format!(
                     "channel {k} lies outside the recording's ±{:.0} Hz (with its bandwidth)",
-                    0.45 * fs
+                    0.5 * fs
                 ),
             ));
         }
         let (bin, centre) = design.nearest_bin(fs, offset);
-        let front = BinFrontEnd::new(design.bin_rate, centre, offset, bandwidth)?;
+        let column = match used.iter().position(|&b| b == bin) {
+            Some(c) => c,
+            None => {
+                used.push(bin);
+                used.len() - 1
+            }
+        };
         let mut config = ReceiverConfig::new(design.bin_rate, offset - centre);
         config.options.bandwidth_hz = Some(bandwidth);
         config.options.audio_rate = request.audio_rate;
-        let mut receiver = strand_receiver(request.mode, &config, front)?;
-        receiver.record_windows(true);
-        let channels = receiver.audio_channels();
-        let delay_s = receiver.delay() / design.bin_rate + bank_delay_s;
-        let skip = (delay_s * request.audio_rate).round() as usize * channels;
-        let audio = vec![0.0; receiver.max_output_len(max_frames)];
+        let (lo, hi) = occupied_band_hz(&request.mode.spec().resolve(&config)?);
+        bands.push((offset, lo, hi));
+        let recipe = Recipe {
+            mode: request.mode,
+            config,
+            bin_centre_hz: centre,
+            bandwidth_hz: bandwidth,
+            extra_delay_s: bank_delay_s,
+            frames: frames_per_window,
+        };
+        // Every channel's receiver is checked now (so a bad request fails before any file
+        // is made) but built when its squelch first opens.
+        BinFrontEnd::new(design.bin_rate, centre, offset, bandwidth)?;
+        if k == 0 {
+            recipe.build(offset)?;
+        }
         let hz = match info.centre_frequency {
             Some(c) => format!("{:.0}Hz", c + offset),
             None => format!("{offset:+.0}Hz"),
         };
         strands.push(Strand {
-            bin,
+            index: k,
+            column,
             offset_hz: offset,
-            samples: vec![Complex32::default(); max_frames],
-            audio,
-            channels,
             audio_rate: request.audio_rate,
-            skip,
-            window_shift_s: bank_delay_s,
-            pending: VecDeque::new(),
-            decisions: VecDeque::new(),
+            running: false,
+            drop: 0,
             squelch: Squelch::new(squelch),
-            released_frames: 0,
+            last_db: None,
+            released: 0,
             path: request.out_dir.join(format!("ch{k:03}_{hz}.wav")),
             sink: None,
             written: false,
             input: request.input.clone(),
-            out: Vec::new(),
-            receiver,
+            recipe,
+            parts: None,
         });
     }
-    let mut read = 0u64;
-    loop {
-        let n = source.read(&mut buf)?;
-        if n == 0 {
-            break;
+    let mut meter = BandMeter::new(fs, bandwidth, &bands)?;
+    let columns = used.len();
+    let (full_tx, full_rx) = crossbeam_channel::bounded::<Window>(QUEUE_WINDOWS);
+    let (empty_tx, empty_rx) = crossbeam_channel::unbounded::<Window>();
+    let new_window = || Window {
+        start: 0,
+        len: 0,
+        readings: Vec::with_capacity(offsets.len()),
+        frames: Vec::with_capacity(frames_per_window * columns),
+    };
+    let centre = info.centre_frequency;
+    let (read, strands_result) = std::thread::scope(|scope| {
+        let producer = scope.spawn(move || -> Result<(u64, Vec<String>)> {
+            let mut input = vec![Complex32::default(); window_len];
+            let mut chunk = vec![Complex32::default(); FRAMES_PER_CHUNK * m];
+            let mut read = 0u64;
+            loop {
+                let mut n = 0;
+                while n < window_len {
+                    let got = source.read(&mut input[n..])?;
+                    if got == 0 {
+                        break;
+                    }
+                    n += got;
+                }
+                if n == 0 {
+                    return Ok((read, source.warnings()));
+                }
+                let mut w = empty_rx.try_recv().unwrap_or_else(|_| new_window());
+                w.start = read;
+                w.len = n;
+                w.readings.clear();
+                w.readings.extend_from_slice(meter.window(&input[..n]));
+                w.frames.clear();
+                let mut at = 0;
+                while at < n {
+                    let (consumed, produced) = bank.process(&input[at..n], &mut chunk);
+                    at += consumed;
+                    for frame in chunk[..produced].chunks_exact(m) {
+                        w.frames.extend(used.iter().map(|&b| frame[b]));
+                    }
+                }
+                read += n as u64;
+                if full_tx.send(w).is_err() {
+                    // The strands stopped (an error there): nothing more to do.
+                    return Ok((read, source.warnings()));
+                }
+            }
+        });
+        let mut preroll: VecDeque<Window> = VecDeque::with_capacity(PREROLL_WINDOWS + 1);
+        let mut view = WatchProgress::default();
+        let mut result = Ok(());
+        for w in full_rx.iter() {
+            let before: Vec<&Window> = preroll.iter().collect();
+            if let Err(e) = each_strand(&mut strands, |s| s.window(&w, &before, fs, columns)) {
+                result = Err(e);
+                break;
+            }
+            view.samples = w.start + w.len as u64;
+            view.seconds = view.samples as f64 / fs;
+            view.open.clear();
+            view.open.extend(
+                strands
+                    .iter()
+                    .filter(|s| s.squelch.is_open())
+                    .map(|s| OpenChannel {
+                        offset_hz: s.offset_hz,
+                        frequency_hz: centre.map(|c| c + s.offset_hz),
+                        cnr_db: s.last_db,
+                    }),
+            );
+            progress(&view);
+            preroll.push_back(w);
+            if preroll.len() > PREROLL_WINDOWS {
+                let old = preroll.pop_front().expect("longer than the pre-roll");
+                let _ = empty_tx.send(old);
+            }
         }
-        read += n as u64;
-        let (_, produced) = bank.process(&buf[..n], &mut frames);
-        each_strand(&mut strands, |s| s.step(&frames[..produced], m))?;
-        progress(read, strands.iter().filter(|s| s.squelch.is_open()).count());
-    }
-    let produced = bank.flush(&mut frames);
-    each_strand(&mut strands, |s| s.step(&frames[..produced], m))?;
+        drop(full_rx);
+        let read = producer
+            .join()
+            .unwrap_or_else(|panic| std::panic::resume_unwind(panic));
+        (read, result)
+    });
+    strands_result?;
+    let (read, warnings) = read?;
     let audio_frames = (read as f64 / fs * request.audio_rate).round() as u64;
     each_strand(&mut strands, |s| s.finish(audio_frames))?;
     let channels = strands
@@ -677,7 +864,7 @@ pub fn run_watch(request: &WatchRequest, progress: &dyn Fn(u64, usize)) -> Resul
         summary: WatchSummary { channels },
         bins: m,
         decimation: design.decimation,
-        warnings: source.warnings(),
+        warnings,
     })
 }
 
