@@ -132,25 +132,38 @@ fn gaps(tone: &[f32]) -> usize {
 }
 
 /// A sink's own rate against the system's monotonic clock, in ppm, from its monitor's
-/// arrivals between `from` and `to`: an ordinary least-squares line of samples
-/// received on arrival time. A reference for the meter inside amrx that shares neither its
-/// path to the server (parec is the sound server's own client, not cpal and ALSA) nor its
-/// estimator (a plain regression over every read, not a lower envelope of callbacks).
+/// arrivals between `from` and `to`: the least lateness (arrival time less samples / rate)
+/// of each 0.5 s, and an ordinary least-squares line through those minima (pipe reads are
+/// only ever late, so their lower envelope follows the sink; Moon, Skelly and Towsley,
+/// IEEE INFOCOM 1999). A reference for the meter inside amrx that shares neither its path
+/// to the server (parec is the sound server's own client, not cpal and ALSA) nor its code;
+/// a plain regression over every read scattered by ±60 ppm between runs on a loaded machine.
 fn monitor_rate_ppm(arrivals: &[(Instant, usize)], from: Instant, to: Instant) -> f64 {
-    let points: Vec<(f64, f64)> = arrivals
-        .iter()
-        .filter(|(t, _)| *t >= from && *t <= to)
-        .map(|(t, n)| (t.duration_since(from).as_secs_f64(), *n as f64))
-        .collect();
+    let mut minima: Vec<(f64, f64)> = Vec::new();
+    for (t, n) in arrivals.iter().filter(|(t, _)| *t >= from && *t <= to) {
+        let t = t.duration_since(from).as_secs_f64();
+        let lateness = t - *n as f64 / RATE;
+        let window = (t / 0.5) as usize;
+        match minima.get_mut(window) {
+            Some(m) if m.0.is_nan() || lateness < m.1 => *m = (t, lateness),
+            Some(_) => {}
+            None => {
+                minima.resize(window, (f64::NAN, f64::NAN));
+                minima.push((t, lateness));
+            }
+        }
+    }
+    let points: Vec<(f64, f64)> = minima.into_iter().filter(|m| !m.0.is_nan()).collect();
     let count = points.len() as f64;
     let mean_t = points.iter().map(|p| p.0).sum::<f64>() / count;
-    let mean_n = points.iter().map(|p| p.1).sum::<f64>() / count;
-    let (mut stt, mut stn) = (0.0, 0.0);
-    for (t, n) in &points {
+    let mean_l = points.iter().map(|p| p.1).sum::<f64>() / count;
+    let (mut stt, mut stl) = (0.0, 0.0);
+    for (t, l) in &points {
         stt += (t - mean_t) * (t - mean_t);
-        stn += (t - mean_t) * (n - mean_n);
+        stl += (t - mean_t) * (l - mean_l);
     }
-    (stn / stt / RATE - 1.0) * 1e6
+    // Lateness falls by (rate / nominal − 1) per second.
+    -stl / stt * 1e6
 }
 
 /// Writes a stereo IQ WAV (left I, right Q, f32 at 48 kHz) of `seconds` holding one line
