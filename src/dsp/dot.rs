@@ -122,18 +122,19 @@ unsafe fn complex_dots_fma<const K: usize>(
         }
         c += LANES;
     }
-    std::array::from_fn(|j| {
+    // A loop rather than `array::from_fn`: its closure would not inherit AVX2 and was
+    // called out of line once per output.
+    let mut out = [Complex32::default(); K];
+    for (o, a) in out.iter_mut().zip(acc) {
         // (a0+a4, a1+a5, a2+a6, a3+a7), then (a0+a4)+(a2+a6) and (a1+a5)+(a3+a7).
-        let halves = _mm_add_ps(
-            _mm256_castps256_ps128(acc[j]),
-            _mm256_extractf128_ps(acc[j], 1),
-        );
+        let halves = _mm_add_ps(_mm256_castps256_ps128(a), _mm256_extractf128_ps(a, 1));
         let sum = _mm_add_ps(halves, _mm_movehl_ps(halves, halves));
-        let mut out = [0.0f32; 4];
-        // SAFETY: `out` holds four f32s.
-        unsafe { _mm_storeu_ps(out.as_mut_ptr(), sum) };
-        Complex32::new(out[0], out[1])
-    })
+        let mut lanes = [0.0f32; 4];
+        // SAFETY: `lanes` holds four f32s.
+        unsafe { _mm_storeu_ps(lanes.as_mut_ptr(), sum) };
+        *o = Complex32::new(lanes[0], lanes[1]);
+    }
+    out
 }
 
 /// `K` windows `stride` complex samples apart against `pairs` (every tap twice, a multiple of
