@@ -5,7 +5,8 @@
 //!
 //! Operation count per input sample (a hand count, our own, from the chain's structure and
 //! its decimation plan; real floating-point operations, a multiply-add counted as two):
-//! overload guard 27 (|x|² 3, log2 20, level 4), mixer 12 (complex multiply 6, per-block
+//! overload guard 6 (|x|² 3, two comparisons with the block's bounds 2, the mantissa product
+//! 1; its level moves once per block of 256), mixer 12 (complex multiply 6, per-block
 //! rotation in f64 6), decimation 4 × the plan's real-tap multiplies per input (a complex
 //! sample times a real tap is 2 multiplies and 2 adds). Stages at the detection rate (channel
 //! filter, detector, audio) run 50 times less often and are left out, so the count is a
@@ -97,7 +98,7 @@ fn ops_per_input(bandwidth_hz: f64) -> f64 {
     let min_rate = 48_000f64.max(6.0 * bandwidth_hz);
     let view = (2.0 * bandwidth_hz).min(0.45 * min_rate);
     let plan = DecimationPlan::new(RATE, min_rate, view, 70.0).unwrap();
-    27.0 + 12.0 + 4.0 * plan.macs_per_input()
+    6.0 + 12.0 + 4.0 * plan.macs_per_input()
 }
 
 fn main() {

@@ -11,7 +11,9 @@ use crate::{Error, Result};
 /// Non-finite input samples are treated as zero.
 #[derive(Debug, Clone)]
 pub struct Fir<T: Sample> {
+    /// The taps padded with zeros to a multiple of four (see [`Taps::padded`]).
     taps: Taps,
+    num_taps: usize,
     history: History<T>,
 }
 
@@ -38,15 +40,17 @@ impl<T: Sample> Fir<T> {
     /// A filter with `taps` (at least one, all finite).
     pub fn new(taps: &[f32]) -> Result<Self> {
         validate_taps(taps)?;
+        let padded = Taps::padded(taps);
         Ok(Fir {
-            taps: Taps::new(taps),
-            history: History::new(taps.len(), PIECE),
+            history: History::new(padded.len(), PIECE),
+            taps: padded,
+            num_taps: taps.len(),
         })
     }
 
     /// Number of taps.
     pub fn num_taps(&self) -> usize {
-        self.taps.len()
+        self.num_taps
     }
 }
 
@@ -61,8 +65,23 @@ impl<T: Sample> Block for Fir<T> {
             let take = self.history.make_room().min(n - done);
             let start = self.history.len();
             self.history.push(&input[done..done + take]);
-            for (i, y) in output[done..done + take].iter_mut().enumerate() {
-                *y = self.taps.dot(self.history.window(start + i + 1));
+            // Four outputs at a time share each tap load (`Taps::dot_many`: an output is the
+            // same alone or in a group, so chunking cannot change it).
+            let out = &mut output[done..done + take];
+            let mut i = 0;
+            while i + 4 <= take {
+                let four: [T; 4] = self
+                    .taps
+                    .dot_many(self.history.windows(start + i + 1, 3), 1);
+                out[i..i + 4].copy_from_slice(&four);
+                i += 4;
+            }
+            while i < take {
+                let [one] = self
+                    .taps
+                    .dot_many(self.history.windows(start + i + 1, 0), 1);
+                out[i] = one;
+                i += 1;
             }
             done += take;
         }
@@ -79,7 +98,7 @@ impl<T: Sample> Block for Fir<T> {
 
     /// (taps − 1)/2: exact for the symmetric (linear-phase) taps this crate designs.
     fn delay(&self) -> f64 {
-        (self.taps.len() as f64 - 1.0) / 2.0
+        (self.num_taps as f64 - 1.0) / 2.0
     }
 
     fn reset(&mut self) {

@@ -2,7 +2,9 @@
 //! followed by room for new ones, so that every filter window is a single contiguous slice
 //! (the inner loop is then a plain dot product the compiler vectorises).
 
+use crate::dsp::dot::{same_type_slice, same_type_slice_mut};
 use crate::sample::Sample;
+use crate::Complex32;
 
 /// A linear history buffer; the kept tail is moved to the front only when the buffer is full.
 #[derive(Debug, Clone)]
@@ -43,8 +45,15 @@ impl<T: Sample> History<T> {
     /// that one bad input cannot poison the output.
     pub(crate) fn push(&mut self, input: &[T]) {
         let dst = &mut self.buf[self.len..self.len + input.len()];
-        for (d, &x) in dst.iter_mut().zip(input) {
-            *d = if x.is_finite_sample() { x } else { T::ZERO };
+        if let (Some(d), Some(x)) = (
+            same_type_slice_mut::<T, Complex32>(dst),
+            same_type_slice::<T, Complex32>(input),
+        ) {
+            push_complex(d, x);
+        } else {
+            for (d, &x) in dst.iter_mut().zip(input) {
+                *d = if x.is_finite_sample() { x } else { T::ZERO };
+            }
         }
         self.len += input.len();
     }
@@ -60,9 +69,73 @@ impl<T: Sample> History<T> {
         &self.buf[end - self.span..end]
     }
 
+    /// The samples from the start of the window ending at `end` to the end of the window
+    /// `extra` positions later (`span + extra` samples).
+    #[inline]
+    pub(crate) fn windows(&self, end: usize, extra: usize) -> &[T] {
+        &self.buf[end - self.span..end + extra]
+    }
+
     /// The `span` newest samples.
     #[inline]
     pub(crate) fn latest(&self) -> &[T] {
         self.window(self.len)
+    }
+}
+
+/// Copies complex samples, zeroing any with a non-finite part, without a branch (x·0 is ±0
+/// for finite x and NaN otherwise), so that the loop vectorises; with AVX2 where the CPU has
+/// it (callgrind on the am command: 47 M instructions in the decimators with the per-sample
+/// `is_finite` test).
+fn push_complex(dst: &mut [Complex32], src: &[Complex32]) {
+    #[inline(always)]
+    fn kernel(dst: &mut [Complex32], src: &[Complex32]) {
+        for (d, x) in dst.iter_mut().zip(src) {
+            let finite = x.re * 0.0 + x.im * 0.0 == 0.0;
+            let mask = if finite { u32::MAX } else { 0 };
+            *d = Complex32::new(
+                f32::from_bits(x.re.to_bits() & mask),
+                f32::from_bits(x.im.to_bits() & mask),
+            );
+        }
+    }
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    unsafe fn kernel_avx2(dst: &mut [Complex32], src: &[Complex32]) {
+        kernel(dst, src)
+    }
+    #[cfg(target_arch = "x86_64")]
+    if std::arch::is_x86_feature_detected!("avx2") {
+        // SAFETY: the CPU has AVX2 (checked just above).
+        return unsafe { kernel_avx2(dst, src) };
+    }
+    kernel(dst, src)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn non_finite_samples_are_stored_as_zero() {
+        let bad = [f32::NAN, f32::INFINITY, f32::NEG_INFINITY];
+        let mut x = crate::dsp::test_util::random_complex(64, 3);
+        for (k, &b) in bad.iter().enumerate() {
+            x[5 * k] = Complex32::new(b, 0.5);
+            x[5 * k + 1] = Complex32::new(-0.5, b);
+        }
+        x[40] = Complex32::new(f32::MAX, -f32::MAX);
+        let mut h = History::<Complex32>::new(1, 64);
+        h.push(&x);
+        let kept = h.windows(1, 63);
+        for (got, want) in kept.iter().zip(&x) {
+            let expected = if want.re.is_finite() && want.im.is_finite() {
+                *want
+            } else {
+                Complex32::default()
+            };
+            assert_eq!(got.re.to_bits(), expected.re.to_bits());
+            assert_eq!(got.im.to_bits(), expected.im.to_bits());
+        }
     }
 }

@@ -5,7 +5,6 @@ pub mod agc;
 pub mod dc_blocker;
 pub mod decimator;
 mod dot;
-mod fast_log2;
 pub mod fir;
 pub mod gain;
 pub mod hilbert;

@@ -561,13 +561,99 @@ fn model_cosines() -> [f64; MODEL_POINTS] {
 }
 
 /// P(μ·cos θ + σ·z > d) for θ uniform on [0, π) and z standard normal; `cosines` from
-/// [`model_cosines`].
+/// [`model_cosines`]. The terms are summed in four lanes with [`erfc_lanes`], a loop that
+/// vectorises (AVX2 where the CPU has it, without FMA: the same operations, so the same
+/// value on every x86-64); callgrind on the am command: 63 M instructions with the
+/// library's `exp` per term, a tenth of the command.
 fn exceedance(cosines: &[f64; MODEL_POINTS], mu: f64, d: f64, sigma: f64) -> f64 {
-    let sum: f64 = cosines
-        .iter()
-        .map(|&c| 0.5 * erfc((d - mu * c) / (sigma * std::f64::consts::SQRT_2)))
-        .sum();
-    sum / MODEL_POINTS as f64
+    #[inline(always)]
+    fn kernel(cosines: &[f64; MODEL_POINTS], mu: f64, d: f64, sigma: f64) -> f64 {
+        let scale = 1.0 / (sigma * std::f64::consts::SQRT_2);
+        let mut acc = [0.0f64; 4];
+        for c in cosines.chunks_exact(4) {
+            let x: [f64; 4] = std::array::from_fn(|l| (d - mu * c[l]) * scale);
+            let e = erfc_lanes(x);
+            for l in 0..4 {
+                acc[l] += e[l];
+            }
+        }
+        0.5 * ((acc[0] + acc[2]) + (acc[1] + acc[3])) / MODEL_POINTS as f64
+    }
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    unsafe fn kernel_avx2(cosines: &[f64; MODEL_POINTS], mu: f64, d: f64, sigma: f64) -> f64 {
+        kernel(cosines, mu, d, sigma)
+    }
+    #[cfg(target_arch = "x86_64")]
+    if std::arch::is_x86_feature_detected!("avx2") {
+        // SAFETY: the CPU has AVX2 (checked just above).
+        return unsafe { kernel_avx2(cosines, mu, d, sigma) };
+    }
+    kernel(cosines, mu, d, sigma)
+}
+
+/// [`erfc`] of four values with [`exp_poly`] in place of the library's `exp` (a difference of
+/// a few units in the last place).
+#[inline(always)]
+fn erfc_lanes(x: [f64; 4]) -> [f64; 4] {
+    let z: [f64; 4] = std::array::from_fn(|l| x[l].abs());
+    let t: [f64; 4] = std::array::from_fn(|l| 1.0 / (1.0 + 0.5 * z[l]));
+    let poly: [f64; 4] = std::array::from_fn(|l| {
+        let t = t[l];
+        -z[l] * z[l] - 1.265_512_23
+            + t * (1.000_023_68
+                + t * (0.374_091_96
+                    + t * (0.096_784_18
+                        + t * (-0.186_288_06
+                            + t * (0.278_868_07
+                                + t * (-1.135_203_98
+                                    + t * (1.488_515_87
+                                        + t * (-0.822_152_23 + t * 0.170_872_77))))))))
+    });
+    std::array::from_fn(|l| {
+        let r = t[l] * exp_poly(poly[l]);
+        if x[l] >= 0.0 {
+            r
+        } else {
+            2.0 - r
+        }
+    })
+}
+
+/// e^x without a call, for a loop that vectorises: x = k·ln 2 + r with k = round(x/ln 2) and
+/// |r| ≤ ½ ln 2 (Cody and Waite's reduction, ln 2 split in two so k·ln 2 is exact to f64;
+/// from memory), e^r by its Taylor series to r¹² (truncation below 0.347¹³/13! ≈ 1.7·10⁻¹⁶),
+/// 2^k put into the exponent field. Arguments under −708 give e^−708 ≈ 3·10⁻³⁰⁸ (0 for the
+/// model's sums); over 709, e^709. The test compares with `f64::exp` over [−708, 709].
+#[inline(always)]
+fn exp_poly(x: f64) -> f64 {
+    const LN2_HI: f64 = 0.693_147_180_369_123_8; // ln 2 to 32 bits
+    const LN2_LO: f64 = 1.908_214_929_270_587_7e-10; // ln 2 − LN2_HI
+    let x = x.clamp(-708.0, 709.0);
+    // Round to nearest by the 1.5·2⁵² trick (no packed f64 → i64 conversion on plain x86-64).
+    const SHIFT: f64 = 6_755_399_441_055_744.0;
+    let kf = (x * std::f64::consts::LOG2_E + SHIFT) - SHIFT;
+    let r = (x - kf * LN2_HI) - kf * LN2_LO;
+    let mut p = 1.0 / 479_001_600.0; // 1/12!
+    for d in [
+        39_916_800.0,
+        3_628_800.0,
+        362_880.0,
+        40_320.0,
+        5_040.0,
+        720.0,
+        120.0,
+        24.0,
+        6.0,
+        2.0,
+        1.0,
+        1.0,
+    ] {
+        p = p * r + 1.0 / d;
+    }
+    // 2^k: k + 1023 in the exponent field, k from the shifted value's low bits.
+    let k_bits = ((kf + SHIFT).to_bits() as i64).wrapping_sub(SHIFT.to_bits() as i64);
+    p * f64::from_bits(((k_bits + 1023) as u64) << 52)
 }
 
 /// The peak modulation μ whose reading, with noise, would be `reading`.
@@ -674,6 +760,40 @@ mod tests {
                 (got - low).abs() < 1e-9,
                 "{reading} {sigma}: {got} vs {low}"
             );
+        }
+    }
+
+    /// The call-free exp against the library's over its whole range (relative error; the
+    /// series and the reduction leave a few units in the last place, 1e-15 allows ~5 ulp), and
+    /// the vectorised erfc against the scalar one (the same fit, so only exp's difference).
+    #[test]
+    fn exp_poly_and_erfc_lanes_match_the_library() {
+        let mut worst: f64 = 0.0;
+        for i in 0..=200_000 {
+            let x = -708.0 + 1417.0 * i as f64 / 200_000.0;
+            worst = worst.max((exp_poly(x) / x.exp() - 1.0).abs());
+        }
+        for x in [
+            0.0,
+            1e-300,
+            -1e-300,
+            0.5 * std::f64::consts::LN_2,
+            -0.34657359,
+        ] {
+            worst = worst.max((exp_poly(x) / x.exp() - 1.0).abs());
+        }
+        assert!(worst < 1e-15, "worst relative error {worst}");
+        assert!(exp_poly(-1e6) == exp_poly(-708.0) && exp_poly(-1e6) < 1e-307);
+        assert!(exp_poly(f64::NAN).is_nan() || exp_poly(f64::NAN).is_finite());
+        for i in 0..2_000 {
+            let x = -30.0 + 60.0 * i as f64 / 2_000.0;
+            let got = erfc_lanes([x, -x, 0.5 * x, 2.0 * x]);
+            for (g, v) in got.iter().zip([x, -x, 0.5 * x, 2.0 * x]) {
+                assert!(
+                    (g - erfc(v)).abs() <= 1e-15 * erfc(v).max(1e-300) + 1e-300,
+                    "{v}"
+                );
+            }
         }
     }
 
