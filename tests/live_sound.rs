@@ -394,9 +394,10 @@ fn thirty_seconds_under_load() {
 /// `clock_ppm` (output against input, from amrx's clock meters) must agree with the same
 /// ratio measured by the sound server's own recorder on both monitors (±25 ppm: each
 /// reference is a plain regression over pipe reads, which agreed with the meters within
-/// 5–15 ppm in runs on a loaded machine); the resampling correction must follow it (within
-/// 15 ppm: the slow fill loop's trim), and the played tone has no gap and no underrun at
-/// `--latency 600`.
+/// 3–12 ppm in runs on a loaded machine); the resampling correction must follow it (within
+/// 20 ppm: the slow fill loop's trim, 1400 ppm per second of fill error, and 10 s means of
+/// the fill that wandered by several ms), and the played tone has no gap and no underrun
+/// at `--latency 600`.
 #[test]
 fn capture_to_playback_follows_the_clocks() {
     server_is_up();
@@ -454,7 +455,7 @@ fn capture_to_playback_follows_the_clocks() {
         "clock {clock} ppm, sinks {reference} ppm"
     );
     assert!(
-        (correction - clock).abs() < 15.0,
+        (correction - clock).abs() < 20.0,
         "correction {correction} ppm, clock {clock} ppm"
     );
     assert_eq!(r["underruns"], 0);

@@ -21,10 +21,11 @@ pub const MAX_PPM: f64 = 1000.0;
 /// are our choice). Until the clock meters have a reading the loop alone follows the
 /// clocks, at ω = 0.02 rad/s: a 100 ppm difference moves the fill by about δ/ω = 5 ms
 /// before it is absorbed. Once the clocks' difference is fed forward the loop only trims
-/// what the meters miss (a few ppm), at ω = 0.002 rad/s, so the fill's noise (below: about
-/// 2 ms in a window's mean) moves the ratio by under 6 ppm, a pitch change of 0.01 cent.
+/// what the meters miss (a few ppm), at ω = 0.001 rad/s, so the fill's noise (below: a few
+/// ms in a window's mean on the live server) moves the ratio by a few ppm, a pitch change
+/// of under 0.01 cent, and a meter 10 ppm off leaves the fill 7 ms from where it settled.
 const GAINS_ALONE: (f64, f64) = (28_000.0, 400.0);
-const GAINS_TRIM: (f64, f64) = (2_800.0, 4.0);
+const GAINS_TRIM: (f64, f64) = (1_400.0, 1.0);
 
 /// Seconds over which the fill is averaged between loop updates. The fill seen at each write
 /// is a sawtooth (the device takes a whole buffer per callback: 100 ms at `--latency 300`)
