@@ -184,6 +184,14 @@ fn write_iq_tone(path: &Path, hz: f64, seconds: f64) {
     w.finalize().unwrap();
 }
 
+/// Plays `wav` into the `iq_in` null sink, whose monitor is the default capture device.
+fn play_into_capture(wav: &Path) -> Child {
+    Command::new("paplay")
+        .args(["-d", "iq_in", wav.to_str().unwrap()])
+        .spawn()
+        .expect("paplay runs (package pulseaudio-utils)")
+}
+
 fn report(path: &Path) -> serde_json::Value {
     serde_json::from_str(&std::fs::read_to_string(path).expect("report written")).unwrap()
 }
@@ -254,10 +262,7 @@ fn ssb_from_the_capture_device() {
     let dir = scratch_dir("live-capture");
     let wav = dir.join("iq.wav");
     write_iq_tone(&wav, 4000.0, 8.0);
-    let mut feeder = Command::new("paplay")
-        .args(["-d", "iq_in", wav.to_str().unwrap()])
-        .spawn()
-        .expect("paplay runs");
+    let mut feeder = play_into_capture(&wav);
     std::thread::sleep(Duration::from_millis(500));
     let audio = dir.join("a.wav");
     let json = dir.join("r.json");
@@ -405,10 +410,7 @@ fn capture_to_playback_follows_the_clocks() {
     let wav = dir.join("iq.wav");
     write_iq_tone(&wav, 4000.0, 75.0);
     let input = Monitor::start_on("iq_in.monitor");
-    let mut feeder = Command::new("paplay")
-        .args(["-d", "iq_in", wav.to_str().unwrap()])
-        .spawn()
-        .expect("paplay runs");
+    let mut feeder = play_into_capture(&wav);
     std::thread::sleep(Duration::from_millis(500));
     let output = Monitor::start();
     let json = dir.join("r.json");
