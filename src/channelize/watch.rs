@@ -584,12 +584,15 @@ fn strand_receiver(
 }
 
 /// One window of the recording as the strands need it: where it starts, each channel's
-/// reading, and the channelizer frames of the bins in use (`columns` per frame).
+/// reading, and the channelizer frames (`columns` values per frame: every bin, or only the
+/// bins in use).
 struct Window {
     start: u64,
     len: usize,
     readings: Vec<Option<f64>>,
     frames: Vec<Complex32>,
+    /// How many values of `frames` hold this window's frames.
+    values: usize,
 }
 
 /// Zeros written for squelched stretches.
@@ -637,8 +640,12 @@ impl Strand {
         let Some(parts) = self.parts.as_mut() else {
             return Ok(());
         };
-        let n = w.frames.len() / columns;
-        for (s, f) in parts.samples.iter_mut().zip(w.frames.chunks_exact(columns)) {
+        let n = w.values / columns;
+        for (s, f) in parts
+            .samples
+            .iter_mut()
+            .zip(w.frames[..w.values].chunks_exact(columns))
+        {
             *s = f[self.column];
         }
         let (_, produced) = parts
@@ -853,14 +860,30 @@ pub fn run_watch(
         });
     }
     let mut meter = BandMeter::new(fs, bandwidth, &bands)?;
-    let columns = used.len();
+    // When most bins are in use (a raster across the band), the frames are kept whole: the
+    // reader thread, which runs the meter and the bank for every channel, then copies
+    // nothing, and each strand picks its bin out; otherwise only the bins in use are kept.
+    let whole = 4 * used.len() >= 3 * m;
+    let columns = if whole {
+        for s in &mut strands {
+            s.column = used[s.column];
+        }
+        m
+    } else {
+        used.len()
+    };
     let (full_tx, full_rx) = crossbeam_channel::bounded::<Window>(QUEUE_WINDOWS);
     let (empty_tx, empty_rx) = crossbeam_channel::unbounded::<Window>();
     let new_window = || Window {
         start: 0,
         len: 0,
         readings: Vec::with_capacity(offsets.len()),
-        frames: Vec::with_capacity(frames_per_window * columns),
+        frames: if whole {
+            vec![Complex32::default(); frames_per_window * m]
+        } else {
+            Vec::with_capacity(frames_per_window * columns)
+        },
+        values: 0,
     };
     let centre = info.centre_frequency;
     let (read, strands_result) = std::thread::scope(|scope| {
@@ -885,14 +908,30 @@ pub fn run_watch(
                 w.len = n;
                 w.readings.clear();
                 w.readings.extend_from_slice(meter.window(&input[..n]));
-                w.frames.clear();
                 let mut at = 0;
-                while at < n {
-                    let (consumed, produced) = bank.process(&input[at..n], &mut chunk);
-                    at += consumed;
-                    for frame in chunk[..produced].chunks_exact(m) {
-                        w.frames.extend(used.iter().map(|&b| frame[b]));
+                if whole {
+                    // A window's inputs make at most `frames_per_window` frames (the first
+                    // at its first input), so the buffer always has room.
+                    w.values = 0;
+                    while at < n {
+                        let (consumed, produced) =
+                            bank.process(&input[at..n], &mut w.frames[w.values..]);
+                        at += consumed;
+                        w.values += produced;
+                        if consumed == 0 {
+                            break;
+                        }
                     }
+                } else {
+                    w.frames.clear();
+                    while at < n {
+                        let (consumed, produced) = bank.process(&input[at..n], &mut chunk);
+                        at += consumed;
+                        for frame in chunk[..produced].chunks_exact(m) {
+                            w.frames.extend(used.iter().map(|&b| frame[b]));
+                        }
+                    }
+                    w.values = w.frames.len();
                 }
                 read += n as u64;
                 if full_tx.send(w).is_err() {
