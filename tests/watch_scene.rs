@@ -1,15 +1,19 @@
-//! `amrx watch` end to end on a synthesised 8.33 kHz raster (25/3 kHz, which does not divide
-//! the 256 kS/s rate: every channel is a bin plus a residual shift). Invented stations, each
+//! `amrx watch` end to end on a synthesised 8.33 kHz raster, at two rates: 256 kS/s, which
+//! 25/3 kHz does not divide (the general bank: every channel is a bin plus a residual shift),
+//! and 2.4 MS/s, which it divides (the bank on the fs/STEP grid: 288 bins, one per channel,
+//! a short prototype and the channel filter after it for the neighbours). Invented stations, each
 //! AM with its own tone, two of them on adjacent channels, one that comes and goes, the rest
 //! of the raster empty. Checks the command's contract (one WAV per channel ever active, the
 //! recording's length, silent while squelched; SUMMARY.json; ACTIVITY.csv), that each active
 //! channel's audio has its neighbours' tones at least 40 dB below its own, and that
 //! transmissions are timed within 0.25 s.
 
+use amrx::channelize::watch::BankDesign;
 use amrx::pipeline::synth_job::run_scene;
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
+/// The rate of the off-grid scene (and of the other tests).
 const RATE: f64 = 256_000.0;
 const CENTRE: f64 = 125_000_000.0;
 const STEP: f64 = 25_000.0 / 3.0;
@@ -24,14 +28,16 @@ const ON_AIR: [(usize, f64, f64, f64); 4] = [
     (7, 2300.0, 0.0, 4.0),
 ];
 
-fn out_dir() -> PathBuf {
-    let d = Path::new(env!("CARGO_TARGET_TMPDIR")).join("watch_scene");
+fn out_dir(name: &str) -> PathBuf {
+    let d = Path::new(env!("CARGO_TARGET_TMPDIR")).join(name);
     let _ = std::fs::remove_dir_all(&d);
     std::fs::create_dir_all(d.join("wavs")).unwrap();
     d
 }
 
-fn scene_file(dir: &Path) -> PathBuf {
+/// The raster scene at `rate` (16-bit samples above 1 MS/s: 2.4 MS/s for 4 s is 38 MB so).
+fn scene_file(dir: &Path, rate: f64) -> PathBuf {
+    let datatype = if rate > 1e6 { "ci16_le" } else { "cf32_le" };
     let emissions: Vec<String> = ON_AIR
         .iter()
         .map(|&(k, tone, start, stop)| {
@@ -43,7 +49,8 @@ fn scene_file(dir: &Path) -> PathBuf {
         })
         .collect();
     let scene = format!(
-        r#"{{ "sample_rate": {RATE}, "centre_frequency": {CENTRE}, "duration_s": 4.0, "seed": 833,
+        r#"{{ "sample_rate": {rate}, "centre_frequency": {CENTRE}, "duration_s": 4.0, "seed": 833,
+  "datatype": "{datatype}",
   "description": "amrx test raster: invented stations on 8.33 kHz channels",
   "noise": {{ "density_db_hz": -100 }},
   "emissions": [ {} ] }}"#,
@@ -74,10 +81,30 @@ fn tone_power(x: &[f32], f: f64) -> f64 {
 }
 
 #[test]
-fn every_active_channel_is_heard_alone_and_timed() {
-    let dir = out_dir();
+fn every_active_channel_is_heard_alone_and_timed_off_the_grid() {
+    // 256 kS/s / 8.33 kHz = 30.72 bins: the general bank.
+    let offsets: Vec<f64> = (0..12).map(|k| FIRST + k as f64 * STEP).collect();
+    let bank = BankDesign::for_plan(RATE, 3_000.0, STEP, &offsets).unwrap();
+    assert_eq!(bank, BankDesign::new(RATE, 3_000.0).unwrap());
+    heard_alone_and_timed("watch_scene", RATE);
+}
+
+#[test]
+fn every_active_channel_is_heard_alone_and_timed_on_the_grid() {
+    // 2.4 MS/s / 8.33 kHz = 288 bins exactly, and the raster from −50 kHz is on that grid.
+    let rate = 2_400_000.0;
+    let offsets: Vec<f64> = (0..12).map(|k| FIRST + k as f64 * STEP).collect();
+    let bank = BankDesign::for_plan(rate, 3_000.0, STEP, &offsets).unwrap();
+    assert_eq!((bank.bins, bank.decimation), (288, 144));
+    heard_alone_and_timed("watch_scene_on_grid", rate);
+}
+
+/// Synthesises the scene at `rate`, watches it through the command line and checks the
+/// contract, the neighbours and the timing.
+fn heard_alone_and_timed(name: &str, rate: f64) {
+    let dir = out_dir(name);
     let base = dir.join("raster");
-    run_scene(&scene_file(&dir), &base, None).unwrap();
+    run_scene(&scene_file(&dir, rate), &base, None).unwrap();
     let json = dir.join("summary.json");
     let log = dir.join("activity.csv");
     let wavs = dir.join("wavs");
