@@ -811,7 +811,7 @@ fn watch(args: &WatchArgs) -> Result<(), String> {
         if let Some(file) = &c.file {
             println!(
                 "{:+.0} Hz: {} transmission(s), {:.1} s active -> {file}",
-                c.offset_hz,
+                amrx::channelize::watch::shown_hz(c.offset_hz, 0),
                 c.transmissions.len(),
                 c.active_s
             );

@@ -454,13 +454,19 @@ impl WatchSummary {
 
     /// ACTIVITY.csv: one row per transmission.
     pub fn activity_csv(&self) -> String {
+        let hz = |x: f64| shown_hz(x, 1);
         let mut s = String::from("offset_hz,frequency_hz,start_s,end_s,peak_cnr_db\n");
         for c in &self.channels {
             for t in &c.transmissions {
-                let f = c.frequency_hz.map_or(String::new(), |f| format!("{f:.1}"));
+                let f = c
+                    .frequency_hz
+                    .map_or(String::new(), |f| format!("{:.1}", hz(f)));
                 s.push_str(&format!(
                     "{:.1},{f},{:.3},{:.3},{:.1}\n",
-                    c.offset_hz, t.start_s, t.end_s, t.peak_cnr_db
+                    hz(c.offset_hz),
+                    t.start_s,
+                    t.end_s,
+                    t.peak_cnr_db
                 ));
             }
         }
@@ -838,8 +844,8 @@ pub fn run_watch(
             recipe.build(offset)?;
         }
         let hz = match info.centre_frequency {
-            Some(c) => format!("{:.0}Hz", c + offset),
-            None => format!("{offset:+.0}Hz"),
+            Some(c) => format!("{:.0}Hz", shown_hz(c + offset, 0)),
+            None => format!("{:+.0}Hz", shown_hz(offset, 0)),
         };
         strands.push(Strand {
             index: k,
@@ -1038,9 +1044,23 @@ pub fn write_reports(
     Ok(())
 }
 
+/// `hz` rounded to `decimals` places for display, never "-0": a channel a few mHz below
+/// the centre (a raster typed as 8333.333 Hz) reads 0, not −0.
+pub fn shown_hz(hz: f64, decimals: i32) -> f64 {
+    let scale = 10f64.powi(decimals);
+    (hz * scale).round() / scale + 0.0
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn shown_frequencies_never_read_minus_zero() {
+        assert_eq!(format!("{:+.0}", shown_hz(-0.016, 0)), "+0");
+        assert_eq!(format!("{:.1}", shown_hz(-0.016, 1)), "0.0");
+        assert_eq!(format!("{:.1}", shown_hz(-8333.36, 1)), "-8333.4");
+    }
 
     #[test]
     fn plans_parse_and_refuse_nonsense() {
