@@ -663,6 +663,7 @@ fn demod(args: DemodArgs) -> Result<u8, String> {
             .play
             .then(|| args.device.clone().unwrap_or_else(|| "default".to_string())),
         play_latency_s: args.latency.map(|ms| ms / 1000.0),
+        one_thread: false,
     };
     let live_input = args.input.to_str().is_some_and(|p| p.starts_with("sound:"));
     let control = Arc::new(LiveControl::default());

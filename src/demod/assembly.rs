@@ -7,6 +7,7 @@ use super::blank_guard::{Blanking, BlankingGuard};
 use super::config::{ModeSettings, ReceiverConfig};
 use super::detector::{Detector, DetectorContext, ModeDetector};
 use super::front_end::{ChannelFrontEnd, FrontEnd, FrontEndConfig};
+use super::halves::{BackHalf, FrontHalf};
 use super::iq_guard::IqBalanceGuard;
 use super::receiver::{Measurements, Receiver};
 use super::{Mode, Transmission};
@@ -60,14 +61,26 @@ pub type Guard = Box<dyn IqGuard>;
 /// ```
 pub struct Assembly<D: Detector> {
     settings: ModeSettings,
+    head: Head,
+    tail: Tail<D>,
+    channel: Vec<Complex32>,
+}
+
+/// The assembly's first half, at the input rate: the guards and the front end. On two
+/// threads ([`Assembly::halves`]) it runs on one and [`Tail`] on the other.
+pub struct Head {
     guards: Vec<Guard>,
     front: Box<dyn FrontEnd>,
+    guarded: [Vec<Complex32>; 2],
+}
+
+/// The assembly's second half, at the detection rate: detector, measurement stage, gain
+/// control, audio stages and notches.
+pub struct Tail<D: Detector> {
     detector: D,
     agcs: Vec<Agc>,
     audio: Vec<AudioStage>,
     notches: Vec<Option<AudioNotch>>,
-    guarded: [Vec<Complex32>; 2],
-    channel: Vec<Complex32>,
     detected: Vec<Vec<f32>>,
     stereo: Vec<Vec<f32>>,
     /// The measurement stage, for modes with a carrier.
@@ -244,21 +257,25 @@ impl<D: Detector> Assembly<D> {
             0
         };
         Ok(Assembly {
-            agcs: (0..channels).map(agc).collect::<Result<Vec<_>>>()?,
-            guarded: [
-                vec![Complex32::default(); PIECE],
-                vec![Complex32::default(); PIECE],
-            ],
+            head: Head {
+                guards,
+                front,
+                guarded: [
+                    vec![Complex32::default(); PIECE],
+                    vec![Complex32::default(); PIECE],
+                ],
+            },
+            tail: Tail {
+                agcs: (0..channels).map(agc).collect::<Result<Vec<_>>>()?,
+                detected: vec![vec![0.0; mid]; channels],
+                stereo: vec![vec![0.0; stereo_len]; channels],
+                audio,
+                notches,
+                meter,
+                detector,
+            },
             channel: vec![Complex32::default(); mid],
-            detected: vec![vec![0.0; mid]; channels],
-            stereo: vec![vec![0.0; stereo_len]; channels],
-            audio,
-            notches,
-            meter,
             settings,
-            guards,
-            front,
-            detector,
         })
     }
 
@@ -269,23 +286,62 @@ impl<D: Detector> Assembly<D> {
 
     /// The rate the channel is filtered and detected at, in Hz.
     pub fn detection_rate(&self) -> f64 {
-        self.front.detection_rate()
+        self.head.front.detection_rate()
     }
 
     /// The detector, for its loops and meters.
     pub fn detector(&self) -> &D {
-        &self.detector
+        &self.tail.detector
     }
 
     /// The front end, for its spectrum.
     pub fn front_end(&self) -> &dyn FrontEnd {
-        self.front.as_ref()
+        self.head.front.as_ref()
     }
 
     fn channels(&self) -> usize {
-        self.audio.len()
+        self.tail.audio.len()
     }
 
+    /// For usb and lsb: a hint when the emission stands on the other side of the tuned
+    /// frequency, 10 dB or more above what the chosen side holds.
+    fn reversed_sideband_warning(&self) -> Option<String> {
+        let (wanted, other) = match self.settings.mode {
+            Mode::Usb => ("upper", "lower"),
+            Mode::Lsb => ("lower", "upper"),
+            _ => return None,
+        };
+        let excess = super::channel_snr::mirror_excess_db(
+            self.head.front.spectrum(),
+            super::channel_snr::occupied_band_hz(&self.settings),
+            self.head.front.flat_band_hz(),
+        )?;
+        (excess >= 10.0).then(|| {
+            format!(
+                "the sidebands look reversed: the {other} sideband holds {excess:.0} dB more than \
+                 the {wanted} one tuned; if the front end delivers I and Q swapped, swap them \
+                 back (--swap-iq), else choose the other sideband"
+            )
+        })
+    }
+}
+
+impl<D: Detector> PieceWise for Assembly<D> {
+    type In = Complex32;
+    type Out = f32;
+
+    fn piece_output_len(&self, n: usize) -> usize {
+        self.channels() * self.tail.audio[0].max_output_len(self.head.front.max_output_len(n))
+    }
+
+    fn process_piece(&mut self, input: &[Complex32], output: &mut [f32]) -> usize {
+        let m = self.head.run(input, &mut self.channel);
+        let wide = self.head.front.wide_view();
+        self.tail.run(&mut self.channel[..m], wide, output)
+    }
+}
+
+impl Head {
     /// Runs the guards over `input` into the guard buffers; returns which buffer holds the
     /// result, or `None` when there are no guards.
     fn guard(&mut self, input: &[Complex32]) -> Option<usize> {
@@ -302,6 +358,48 @@ impl<D: Detector> Assembly<D> {
             at = Some(next);
         }
         at
+    }
+
+    /// One piece of IQ through the guards and the front end into `channel`; returns the
+    /// channel samples written (the front end's wide view holds as many, or none).
+    fn run(&mut self, input: &[Complex32], channel: &mut [Complex32]) -> usize {
+        let guarded = self.guard(input);
+        let front_input = match guarded {
+            None => input,
+            Some(k) => &self.guarded[k][..input.len()],
+        };
+        self.front.process(front_input, channel).1
+    }
+}
+
+impl<D: Detector> Tail<D> {
+    fn channels(&self) -> usize {
+        self.audio.len()
+    }
+
+    /// One piece of channel (with the front end's wide view of it, or an empty view) through
+    /// detector, measurement stage, gain control and audio stage; returns the outputs written.
+    fn run(&mut self, channel: &mut [Complex32], wide: &[Complex32], output: &mut [f32]) -> usize {
+        let m = channel.len();
+        self.detector.detect(channel, &mut self.detected);
+        if let Some(meter) = self.meter.as_mut() {
+            if wide.len() == m {
+                meter.push(wide, self.detector.envelope(), self.detector.lock_state());
+            }
+        }
+        for (agc, plane) in self.agcs.iter_mut().zip(&mut self.detected) {
+            for x in &mut plane[..m] {
+                *x = agc.next_sample(*x);
+            }
+        }
+        if self.channels() == 1 {
+            let p = self.audio[0].process(&self.detected[0][..m], output).1;
+            if let Some(notch) = &mut self.notches[0] {
+                notch.apply(&mut output[..p]);
+            }
+            return p;
+        }
+        self.interleave(m, output)
     }
 
     /// Each channel through its audio stage, then frames [c0, c1, ...] into `output`.
@@ -325,67 +423,72 @@ impl<D: Detector> Assembly<D> {
         }
         channels * frames
     }
+}
 
-    /// For usb and lsb: a hint when the emission stands on the other side of the tuned
-    /// frequency, 10 dB or more above what the chosen side holds.
-    fn reversed_sideband_warning(&self) -> Option<String> {
-        let (wanted, other) = match self.settings.mode {
-            Mode::Usb => ("upper", "lower"),
-            Mode::Lsb => ("lower", "upper"),
-            _ => return None,
-        };
-        let excess = super::channel_snr::mirror_excess_db(
-            self.front.spectrum(),
-            super::channel_snr::occupied_band_hz(&self.settings),
-            self.front.flat_band_hz(),
-        )?;
-        (excess >= 10.0).then(|| {
-            format!(
-                "the sidebands look reversed: the {other} sideband holds {excess:.0} dB more than \
-                 the {wanted} one tuned; if the front end delivers I and Q swapped, swap them \
-                 back (--swap-iq), else choose the other sideband"
-            )
-        })
+impl FrontHalf for Head {
+    fn run_piece(
+        &mut self,
+        input: &[Complex32],
+        channel: &mut [Complex32],
+        wide: &mut [Complex32],
+    ) -> (usize, usize) {
+        let m = self.run(input, channel);
+        let view = self.front.wide_view();
+        if wide.len() >= m && view.len() == m {
+            wide[..m].copy_from_slice(view);
+            return (m, m);
+        }
+        (m, 0)
+    }
+
+    fn max_piece_output(&self) -> usize {
+        self.front.max_output_len(PIECE)
+    }
+
+    fn set_offset(&mut self, offset_hz: f64) -> Result<f64> {
+        let step = offset_hz - self.front.offset_hz();
+        self.front.set_offset(offset_hz)?;
+        for guard in &mut self.guards {
+            guard.retune(offset_hz);
+        }
+        Ok(step)
+    }
+
+    fn offset_hz(&self) -> f64 {
+        self.front.offset_hz()
     }
 }
 
-impl<D: Detector> PieceWise for Assembly<D> {
-    type In = Complex32;
-    type Out = f32;
-
-    fn piece_output_len(&self, n: usize) -> usize {
-        self.channels() * self.audio[0].max_output_len(self.front.max_output_len(n))
+impl<D: Detector> BackHalf for Tail<D> {
+    fn wants_wide(&self) -> bool {
+        self.meter.is_some()
     }
 
-    fn process_piece(&mut self, input: &[Complex32], output: &mut [f32]) -> usize {
-        let guarded = self.guard(input);
-        let n = input.len();
-        let front_input = match guarded {
-            None => input,
-            Some(k) => &self.guarded[k][..n],
-        };
-        let (_, m) = self.front.process(front_input, &mut self.channel);
-        self.detector
-            .detect(&mut self.channel[..m], &mut self.detected);
+    fn piece_output_len(&self, m: usize) -> usize {
+        self.channels() * self.audio[0].max_output_len(m)
+    }
+
+    fn run_piece(
+        &mut self,
+        channel: &mut [Complex32],
+        wide: &[Complex32],
+        output: &mut [f32],
+    ) -> usize {
+        self.run(channel, wide, output)
+    }
+
+    fn retuned(&mut self, step_hz: f64) {
+        self.detector.retuned(step_hz);
+    }
+
+    fn finish(&mut self) {
         if let Some(meter) = self.meter.as_mut() {
-            let wide = self.front.wide_view();
-            if wide.len() == m {
-                meter.push(wide, self.detector.envelope(), self.detector.lock_state());
-            }
+            meter.finish();
         }
-        for (agc, plane) in self.agcs.iter_mut().zip(&mut self.detected) {
-            for x in &mut plane[..m] {
-                *x = agc.next_sample(*x);
-            }
-        }
-        if self.channels() == 1 {
-            let p = self.audio[0].process(&self.detected[0][..m], output).1;
-            if let Some(notch) = &mut self.notches[0] {
-                notch.apply(&mut output[..p]);
-            }
-            return p;
-        }
-        self.interleave(m, output)
+    }
+
+    fn cnr_db(&self) -> Option<f64> {
+        self.meter.as_ref().and_then(|m| m.summary().cnr_db)
     }
 }
 
@@ -406,27 +509,27 @@ impl<D: Detector> Block for Assembly<D> {
     }
 
     fn delay(&self) -> f64 {
-        let guards: f64 = self.guards.iter().map(|g| g.delay()).sum();
-        let after_front = self.detector.delay() + self.audio[0].delay();
-        guards + self.front.delay() + after_front / self.front.rate_ratio()
+        let guards: f64 = self.head.guards.iter().map(|g| g.delay()).sum();
+        let after_front = self.tail.detector.delay() + self.tail.audio[0].delay();
+        guards + self.head.front.delay() + after_front / self.head.front.rate_ratio()
     }
 
     fn reset(&mut self) {
-        for guard in &mut self.guards {
+        for guard in &mut self.head.guards {
             guard.reset();
         }
-        self.front.reset();
-        self.detector.reset();
-        for agc in &mut self.agcs {
+        self.head.front.reset();
+        self.tail.detector.reset();
+        for agc in &mut self.tail.agcs {
             agc.reset();
         }
-        for audio in &mut self.audio {
+        for audio in &mut self.tail.audio {
             audio.reset();
         }
-        for notch in self.notches.iter_mut().flatten() {
+        for notch in self.tail.notches.iter_mut().flatten() {
             notch.reset();
         }
-        if let Some(meter) = self.meter.as_mut() {
+        if let Some(meter) = self.tail.meter.as_mut() {
             meter.reset();
         }
     }
@@ -434,7 +537,7 @@ impl<D: Detector> Block for Assembly<D> {
     /// The measurement stage stops at the end of the real input (the zeros that bring out the
     /// tail are not metered), then the default flush.
     fn flush(&mut self, output: &mut [f32]) -> usize {
-        if let Some(meter) = self.meter.as_mut() {
+        if let Some(meter) = self.tail.meter.as_mut() {
             meter.finish();
         }
         let count = self.flush_len();
@@ -456,37 +559,33 @@ impl<D: Detector> Receiver for Assembly<D> {
     }
 
     fn offset_hz(&self) -> f64 {
-        self.front.offset_hz()
+        self.head.front.offset_hz()
     }
 
     fn set_offset(&mut self, offset_hz: f64) -> Result<()> {
-        let step = offset_hz - self.front.offset_hz();
-        self.front.set_offset(offset_hz)?;
-        for guard in &mut self.guards {
-            guard.retune(offset_hz);
-        }
-        self.detector.retuned(step);
+        let step = FrontHalf::set_offset(&mut self.head, offset_hz)?;
+        self.tail.detector.retuned(step);
         Ok(())
     }
 
     fn measurements(&self) -> Measurements {
         let mut m = Measurements::default();
-        if let Some(meter) = &self.meter {
+        if let Some(meter) = &self.tail.meter {
             fill_from_meter(meter, &mut m);
         }
-        self.detector.measure(self.front.as_ref(), &mut m);
-        for guard in &self.guards {
+        self.tail.detector.measure(self.head.front.as_ref(), &mut m);
+        for guard in &self.head.guards {
             guard.report(&mut m);
         }
-        if self.meter.is_some() {
+        if self.tail.meter.is_some() {
             centre_spike_is_no_station(&mut m);
         }
         if m.snr_db.is_none() {
             m.snr_db = super::channel_snr::estimate_channel_snr_db(
-                self.front.spectrum(),
+                self.head.front.spectrum(),
                 super::channel_snr::occupied_band_hz(&self.settings),
                 self.settings.bandwidth_hz,
-                self.front.flat_band_hz(),
+                self.head.front.flat_band_hz(),
             );
         }
         if let Some(warning) = self.reversed_sideband_warning() {
@@ -500,14 +599,14 @@ impl<D: Detector> Receiver for Assembly<D> {
     }
 
     fn meter_summary(&self) -> Option<crate::measure::MeterSummary> {
-        self.meter.as_ref().map(CarrierMeter::summary)
+        self.tail.meter.as_ref().map(CarrierMeter::summary)
     }
 
     fn set_meter_window(&mut self, window_s: f64) -> Result<()> {
-        if let Some(meter) = self.meter.as_mut() {
+        if let Some(meter) = self.tail.meter.as_mut() {
             let mut fresh = CarrierMeter::new(meter_settings(
                 &self.settings,
-                self.front.as_ref(),
+                self.head.front.as_ref(),
                 window_s,
             ))?;
             fresh.record_windows(meter.is_recording());
@@ -517,13 +616,18 @@ impl<D: Detector> Receiver for Assembly<D> {
     }
 
     fn record_windows(&mut self, on: bool) {
-        if let Some(meter) = self.meter.as_mut() {
+        if let Some(meter) = self.tail.meter.as_mut() {
             meter.record_windows(on);
         }
     }
 
+    fn halves(&mut self) -> Option<(&mut dyn FrontHalf, &mut dyn BackHalf)> {
+        Some((&mut self.head, &mut self.tail))
+    }
+
     fn take_windows(&mut self) -> Vec<WindowReading> {
-        self.meter
+        self.tail
+            .meter
             .as_mut()
             .map(CarrierMeter::take_windows)
             .unwrap_or_default()

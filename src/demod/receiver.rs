@@ -1,5 +1,6 @@
 //! The interface every receiver offers: IQ in, audio out, measurements on demand, retuning.
 
+use super::halves::{BackHalf, FrontHalf};
 use crate::block::Block;
 use crate::measure::{MeterSummary, ModulationDepth, WindowReading};
 use crate::{Complex32, Result};
@@ -61,6 +62,11 @@ pub trait Receiver: Block<Input = Complex32, Output = f32> + Send {
     fn record_windows(&mut self, on: bool);
     /// The recorded windows so far, leaving none behind (empty without recording or a carrier).
     fn take_windows(&mut self) -> Vec<WindowReading>;
+    /// The receiver's two halves, to run on two threads ([`crate::pipeline::split`]); `None`
+    /// for a receiver that cannot be cut (it then runs on one thread).
+    fn halves(&mut self) -> Option<(&mut dyn FrontHalf, &mut dyn BackHalf)> {
+        None
+    }
 }
 
 /// A boxed receiver (what [`build_receiver`](super::build_receiver) returns) is a block too,

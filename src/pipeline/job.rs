@@ -4,6 +4,7 @@ use super::live::{sound_input_name, Controlled, LiveControl, SoundSession, TeeSi
 use super::progress::Progress;
 use super::report::Report;
 use super::runtime::{run_stream, RuntimeConfig};
+use super::split::{run_split, SplitPlan};
 use crate::demod::{build_receiver, Mode, Receiver, ReceiverConfig, ReceiverOptions};
 use crate::io::{
     check_destination, check_not_input, open_input, AudioSink, InputOptions, IqSource,
@@ -64,6 +65,10 @@ pub struct DemodRequest {
     /// Output latency for `play` in seconds (device buffer plus the ring's target fill);
     /// `None`: the sink's default (30 ms). Larger values ride out a busy machine.
     pub play_latency_s: Option<f64>,
+    /// Runs the whole receiver on one DSP thread. Otherwise a file-to-file run cuts it in two
+    /// halves on two threads ([`super::split`]), with the same audio and report; a run with a
+    /// sound card keeps one DSP thread either way.
+    pub one_thread: bool,
 }
 
 impl DemodRequest {
@@ -79,6 +84,7 @@ impl DemodRequest {
             report: None,
             play: None,
             play_latency_s: None,
+            one_thread: false,
         }
     }
 }
@@ -188,32 +194,45 @@ pub fn run_demod_live(
     let expected = source.info().total_samples;
     let mut read_so_far = 0u64;
     let mut interrupted = false;
-    let totals = run_stream(
-        |buf| {
-            if stop.load(Ordering::Relaxed) {
-                interrupted = true;
-                input_total.store(read_so_far, Ordering::Release);
-                return Ok(0);
-            }
-            let n = source.read(buf)?;
-            read_so_far += n as u64;
-            progress(Progress {
-                done: read_so_far,
-                total: expected,
-            });
-            if n == 0 {
-                input_total.store(read_so_far, Ordering::Release);
-            }
-            Ok(n)
-        },
-        &mut Controlled::new(receiver.as_mut(), control, input_rate),
-        |audio| {
-            let kept = aligned.keep(audio, input_total.load(Ordering::Acquire));
-            level.push(kept);
-            sink.write(kept)
-        },
-        runtime,
-    )?;
+    let read = |buf: &mut [crate::Complex32]| {
+        if stop.load(Ordering::Relaxed) {
+            interrupted = true;
+            input_total.store(read_so_far, Ordering::Release);
+            return Ok(0);
+        }
+        let n = source.read(buf)?;
+        read_so_far += n as u64;
+        progress(Progress {
+            done: read_so_far,
+            total: expected,
+        });
+        if n == 0 {
+            input_total.store(read_so_far, Ordering::Release);
+        }
+        Ok(n)
+    };
+    let write = |audio: &[f32]| {
+        let kept = aligned.keep(audio, input_total.load(Ordering::Acquire));
+        level.push(kept);
+        sink.write(kept)
+    };
+    let two_halves = !request.one_thread && live_input.is_none() && request.play.is_none();
+    let plan = SplitPlan {
+        flush_len: receiver.flush_len(),
+        out_len: receiver
+            .max_output_len(runtime.chunk)
+            .max(receiver.flush_output_len()),
+        input_rate,
+    };
+    let totals = match receiver.halves().filter(|_| two_halves) {
+        Some((front, back)) => run_split(read, front, back, write, runtime, plan, control)?,
+        None => run_stream(
+            read,
+            &mut Controlled::new(receiver.as_mut(), control, input_rate),
+            write,
+            runtime,
+        )?,
+    };
     sink.finish()?;
     let mut report = make_report(
         request,

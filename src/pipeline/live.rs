@@ -222,7 +222,38 @@ impl LiveControl {
         self.problem.lock().ok().and_then(|mut p| p.take())
     }
 
-    fn take_retune(&self) -> Option<f64> {
+    /// Publishes the tuning.
+    pub(crate) fn publish_offset(&self, offset_hz: f64) {
+        set(&self.offset_hz, offset_hz);
+    }
+
+    /// Publishes the audio level from its mean square over the last stretch.
+    pub(crate) fn publish_level(&self, mean_square: f64) {
+        // dBFS of the RMS against a full-scale sine's RMS (1/√2): a sine at 1.0 reads 0.
+        set(
+            &self.audio_dbfs,
+            10.0 * (2.0 * mean_square).max(1e-20).log10(),
+        );
+    }
+
+    /// Publishes the seconds of input received so far.
+    pub(crate) fn publish_seconds(&self, seconds: f64) {
+        set(&self.seconds, seconds);
+    }
+
+    /// Publishes the CNR so far.
+    pub(crate) fn publish_cnr(&self, cnr_db: f64) {
+        set(&self.cnr_db, cnr_db);
+    }
+
+    /// Hands a refused retune to whoever drives the run.
+    pub(crate) fn report_problem(&self, problem: String) {
+        if let Ok(mut p) = self.problem.lock() {
+            *p = Some(problem);
+        }
+    }
+
+    pub(crate) fn take_retune(&self) -> Option<f64> {
         let v = f64::from_bits(self.retune.swap(f64::NAN.to_bits(), Ordering::Relaxed));
         v.is_finite().then_some(v)
     }
@@ -286,12 +317,7 @@ impl Block for Controlled<'_> {
         self.count += produced as u64;
         if self.since as f64 >= 0.5 * self.input_rate {
             if self.count > 0 {
-                // dBFS of the RMS against a full-scale sine's RMS (1/√2): a sine at 1.0 reads 0.
-                let ms = self.energy / self.count as f64;
-                set(
-                    &self.control.audio_dbfs,
-                    10.0 * (2.0 * ms).max(1e-20).log10(),
-                );
+                self.control.publish_level(self.energy / self.count as f64);
             }
             if let Some(cnr) = self.receiver.measurements().cnr_db {
                 set(&self.control.cnr_db, cnr);

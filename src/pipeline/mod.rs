@@ -8,6 +8,7 @@ pub mod measure_job;
 pub mod progress;
 pub mod report;
 pub mod runtime;
+pub mod split;
 pub mod synth_job;
 
 pub use job::{

@@ -40,9 +40,9 @@ pub struct RunTotals {
 }
 
 /// A filled buffer and how much of it is valid.
-struct Filled<T> {
-    buf: Vec<T>,
-    len: usize,
+pub(super) struct Filled<T> {
+    pub(super) buf: Vec<T>,
+    pub(super) len: usize,
 }
 
 /// Runs `source → block → sink` on three threads until the source returns 0 (end of stream) or
@@ -115,7 +115,7 @@ where
 }
 
 /// A channel pre-filled with `depth` buffers of `len` default samples.
-fn pool<T: Copy + Default>(depth: usize, len: usize) -> (Tx<Vec<T>>, Rx<Vec<T>>) {
+pub(super) fn pool<T: Copy + Default>(depth: usize, len: usize) -> (Tx<Vec<T>>, Rx<Vec<T>>) {
     let (tx, rx) = bounded(depth);
     for _ in 0..depth {
         // The channel has room for exactly `depth` buffers and both ends are alive here.
@@ -124,7 +124,10 @@ fn pool<T: Copy + Default>(depth: usize, len: usize) -> (Tx<Vec<T>>, Rx<Vec<T>>)
     (tx, rx)
 }
 
-fn joined<T>(handle: thread::ScopedJoinHandle<'_, Result<T>>, stage: &'static str) -> Result<T> {
+pub(super) fn joined<T>(
+    handle: thread::ScopedJoinHandle<'_, Result<T>>,
+    stage: &'static str,
+) -> Result<T> {
     handle.join().unwrap_or_else(|panic| {
         let problem = panic
             .downcast_ref::<&str>()
@@ -136,7 +139,11 @@ fn joined<T>(handle: thread::ScopedJoinHandle<'_, Result<T>>, stage: &'static st
 }
 
 /// Reads until end of stream; returns the samples read. Stops quietly if downstream has gone.
-fn read_stage<T, Src>(source: &mut Src, free: Rx<Vec<T>>, full: Tx<Filled<T>>) -> Result<u64>
+pub(super) fn read_stage<T, Src>(
+    source: &mut Src,
+    free: Rx<Vec<T>>,
+    full: Tx<Filled<T>>,
+) -> Result<u64>
 where
     Src: FnMut(&mut [T]) -> Result<usize>,
 {
@@ -209,7 +216,11 @@ fn send_flushed_tail<B: Block + ?Sized>(
     }
 }
 
-fn write_stage<T, Snk>(sink: &mut Snk, full: Rx<Filled<T>>, free: Tx<Vec<T>>) -> Result<u64>
+pub(super) fn write_stage<T, Snk>(
+    sink: &mut Snk,
+    full: Rx<Filled<T>>,
+    free: Tx<Vec<T>>,
+) -> Result<u64>
 where
     Snk: FnMut(&[T]) -> Result<()>,
 {
