@@ -398,8 +398,8 @@ fn thirty_seconds_under_load() {
 /// latency their clients ask for), so the two differ by some tens of ppm. The report's
 /// `clock_ppm` (output against input, from amrx's clock meters) must agree with the same
 /// ratio measured by the sound server's own recorder on both monitors (±25 ppm: each
-/// reference is a plain regression over pipe reads, which agreed with the meters within
-/// 3–12 ppm in runs on a loaded machine); the resampling correction must follow it (within
+/// reference is a line through the least lateness of each 0.5 s of pipe reads, which
+/// agreed with the meters within 2–12 ppm in runs on a loaded machine); the resampling correction must follow it (within
 /// 20 ppm: the slow fill loop's trim, 1400 ppm per second of fill error, and 10 s means of
 /// the fill that wandered by several ms), and the played tone has no gap and no underrun
 /// at `--latency 600`.

@@ -27,7 +27,7 @@ use std::sync::Arc;
 /// length-M arrays, u\[p\] += h\[rM + p\]·z\[rM + p\] with z\[i\] = x\[t − i\] (the input history
 /// stored newest first), so taps and history are both read forwards and the compiler
 /// vectorises the passes (an AVX2 + FMA build of the same loop is chosen at run time, see
-/// [`polyphase_sums`]). The inverse FFT then runs in place in the output frame.
+/// `polyphase_sums`). The inverse FFT then runs in place in the output frame.
 pub struct PolyphaseChannelizer {
     channels: usize,
     decimation: usize,

@@ -173,7 +173,7 @@ impl BankDesign {
     /// M/2 (two samples per spacing), or by M when critically sampled bins still give 2.5 ×
     /// the passband edge (the 25 kHz raster), and a short prototype. It passes each bin's
     /// centre ± the noise view (2 bandwidths) flat and stops from where decimation would fold
-    /// onto that, bin rate − edge, at [`ON_GRID_ATTENUATION_DB`]; the neighbours, a spacing
+    /// onto that, bin rate − edge, at `ON_GRID_ATTENUATION_DB`; the neighbours, a spacing
     /// away, are rejected by the channel filter after the bank. `None` when the plan is off
     /// the grid or the grid is too fine for the channel.
     pub fn on_grid(
@@ -742,7 +742,7 @@ const PREROLL_WINDOWS: usize = 1;
 /// Runs `amrx watch`: `progress` after each window (about 0.1 s of the recording).
 ///
 /// Threads: one reads the recording, runs the band meter and the channelizer and sends each
-/// window's readings and frames over a bounded channel ([`QUEUE_WINDOWS`] deep; buffers come
+/// window's readings and frames over a bounded channel (`QUEUE_WINDOWS` deep; buffers come
 /// back for reuse); the caller's thread runs the strands, in parallel across cores with rayon
 /// (feature `lab`). Memory is bounded by the window buffers in flight, whatever the input's
 /// length.

@@ -581,7 +581,7 @@ impl ImpulseBlanker {
 }
 
 /// A slice kernel rather than the one-sample `SampleBlock`: in-clamp runs go through
-/// [`ImpulseBlanker::steady_run`] (callgrind on `amrx demod --mode am`, 2 s of cu8 at
+/// `ImpulseBlanker::steady_run` (callgrind on `amrx demod --mode am`, 2 s of cu8 at
 /// 2.4 MS/s: 667 M instructions in the overload guard with the C library's `log2` per
 /// sample and a per-sample level; see BENCHMARKS.md for after).
 impl Block for ImpulseBlanker {

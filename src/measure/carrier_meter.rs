@@ -534,15 +534,7 @@ impl CarrierMeter {
 pub fn erfc(x: f64) -> f64 {
     let z = x.abs();
     let t = 1.0 / (1.0 + 0.5 * z);
-    let poly = -z * z - 1.265_512_23
-        + t * (1.000_023_68
-            + t * (0.374_091_96
-                + t * (0.096_784_18
-                    + t * (-0.186_288_06
-                        + t * (0.278_868_07
-                            + t * (-1.135_203_98
-                                + t * (1.488_515_87 + t * (-0.822_152_23 + t * 0.170_872_77))))))));
-    let r = t * poly.exp();
+    let r = t * erfc_exponent(z, t).exp();
     if x >= 0.0 {
         r
     } else {
@@ -592,24 +584,26 @@ fn exceedance(cosines: &[f64; MODEL_POINTS], mu: f64, d: f64, sigma: f64) -> f64
     kernel(cosines, mu, d, sigma)
 }
 
+/// The exponent of the fit in [`erfc`]: erfc(z) = t·e^(this), t = 1/(1 + z/2), z ≥ 0.
+#[inline(always)]
+fn erfc_exponent(z: f64, t: f64) -> f64 {
+    -z * z - 1.265_512_23
+        + t * (1.000_023_68
+            + t * (0.374_091_96
+                + t * (0.096_784_18
+                    + t * (-0.186_288_06
+                        + t * (0.278_868_07
+                            + t * (-1.135_203_98
+                                + t * (1.488_515_87 + t * (-0.822_152_23 + t * 0.170_872_77))))))))
+}
+
 /// [`erfc`] of four values with [`exp_poly`] in place of the library's `exp` (a difference of
 /// a few units in the last place).
 #[inline(always)]
 fn erfc_lanes(x: [f64; 4]) -> [f64; 4] {
     let z: [f64; 4] = std::array::from_fn(|l| x[l].abs());
     let t: [f64; 4] = std::array::from_fn(|l| 1.0 / (1.0 + 0.5 * z[l]));
-    let poly: [f64; 4] = std::array::from_fn(|l| {
-        let t = t[l];
-        -z[l] * z[l] - 1.265_512_23
-            + t * (1.000_023_68
-                + t * (0.374_091_96
-                    + t * (0.096_784_18
-                        + t * (-0.186_288_06
-                            + t * (0.278_868_07
-                                + t * (-1.135_203_98
-                                    + t * (1.488_515_87
-                                        + t * (-0.822_152_23 + t * 0.170_872_77))))))))
-    });
+    let poly: [f64; 4] = std::array::from_fn(|l| erfc_exponent(z[l], t[l]));
     std::array::from_fn(|l| {
         let r = t[l] * exp_poly(poly[l]);
         if x[l] >= 0.0 {
