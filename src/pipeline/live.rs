@@ -266,11 +266,50 @@ pub(crate) struct Controlled<'a> {
     pub(crate) receiver: &'a mut dyn Receiver,
     pub(crate) control: &'a LiveControl,
     pub(crate) input_rate: f64,
-    /// Inputs seen, and since the last publication.
+    tally: StatusTally,
+}
+
+/// What the status line shows, gathered piece by piece and published to a [`LiveControl`]
+/// every 0.5 s of input: the audio level, the CNR and the seconds received. Used by the
+/// one-thread receiver ([`Controlled`]) and the back half of the two-thread one.
+#[derive(Debug, Default)]
+pub(crate) struct StatusTally {
+    /// Inputs seen, and since the last publication; the audio's energy and count since then.
     inputs: u64,
     since: u64,
     energy: f64,
     count: u64,
+}
+
+impl StatusTally {
+    /// Adds `consumed` inputs and the `audio` they gave; every 0.5 s of input at
+    /// `input_rate`, publishes the level, `cnr_db()` and the seconds to `control`.
+    pub(crate) fn add(
+        &mut self,
+        control: &LiveControl,
+        input_rate: f64,
+        consumed: usize,
+        audio: &[f32],
+        cnr_db: impl FnOnce() -> Option<f64>,
+    ) {
+        self.inputs += consumed as u64;
+        self.since += consumed as u64;
+        self.energy += audio.iter().map(|&x| (x as f64) * (x as f64)).sum::<f64>();
+        self.count += audio.len() as u64;
+        if (self.since as f64) < 0.5 * input_rate {
+            return;
+        }
+        if self.count > 0 {
+            control.publish_level(self.energy / self.count as f64);
+        }
+        if let Some(cnr) = cnr_db() {
+            control.publish_cnr(cnr);
+        }
+        control.publish_seconds(self.inputs as f64 / input_rate);
+        self.since = 0;
+        self.energy = 0.0;
+        self.count = 0;
+    }
 }
 
 impl<'a> Controlled<'a> {
@@ -279,15 +318,12 @@ impl<'a> Controlled<'a> {
         control: &'a LiveControl,
         input_rate: f64,
     ) -> Self {
-        set(&control.offset_hz, receiver.offset_hz());
+        control.publish_offset(receiver.offset_hz());
         Controlled {
             receiver,
             control,
             input_rate,
-            inputs: 0,
-            since: 0,
-            energy: 0.0,
-            count: 0,
+            tally: StatusTally::default(),
         }
     }
 }
@@ -299,34 +335,19 @@ impl Block for Controlled<'_> {
     fn process(&mut self, input: &[Complex32], output: &mut [f32]) -> (usize, usize) {
         if let Some(hz) = self.control.take_retune() {
             match self.receiver.set_offset(hz) {
-                Ok(()) => set(&self.control.offset_hz, self.receiver.offset_hz()),
-                Err(e) => {
-                    if let Ok(mut p) = self.control.problem.lock() {
-                        *p = Some(e.to_string());
-                    }
-                }
+                Ok(()) => self.control.publish_offset(self.receiver.offset_hz()),
+                Err(e) => self.control.report_problem(e.to_string()),
             }
         }
         let (consumed, produced) = self.receiver.process(input, output);
-        self.inputs += consumed as u64;
-        self.since += consumed as u64;
-        self.energy += output[..produced]
-            .iter()
-            .map(|&x| (x as f64) * (x as f64))
-            .sum::<f64>();
-        self.count += produced as u64;
-        if self.since as f64 >= 0.5 * self.input_rate {
-            if self.count > 0 {
-                self.control.publish_level(self.energy / self.count as f64);
-            }
-            if let Some(cnr) = self.receiver.measurements().cnr_db {
-                set(&self.control.cnr_db, cnr);
-            }
-            set(&self.control.seconds, self.inputs as f64 / self.input_rate);
-            self.since = 0;
-            self.energy = 0.0;
-            self.count = 0;
-        }
+        let receiver = &*self.receiver;
+        self.tally.add(
+            self.control,
+            self.input_rate,
+            consumed,
+            &output[..produced],
+            || receiver.measurements().cnr_db,
+        );
         (consumed, produced)
     }
     fn max_output_len(&self, input_len: usize) -> usize {

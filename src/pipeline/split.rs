@@ -14,7 +14,7 @@
 //! measurements are the one-thread path's, sample for sample. Memory is bounded as in
 //! [`super::runtime`]: every pool holds `depth` buffers, built before the first sample.
 
-use super::live::LiveControl;
+use super::live::{LiveControl, StatusTally};
 use super::runtime::{joined, pool, read_stage, write_stage, Filled, RunTotals, RuntimeConfig};
 use crate::block::{FLUSH_PIECE, PIECE};
 use crate::demod::{BackHalf, FrontHalf};
@@ -253,7 +253,7 @@ fn back_stage(
     free_out: Rx<Vec<f32>>,
     full_out: Tx<Filled<f32>>,
 ) -> Result<()> {
-    let (mut inputs, mut since, mut energy, mut count) = (0u64, 0u64, 0f64, 0u64);
+    let mut tally = StatusTally::default();
     while let Ok(mut batch) = full.recv() {
         let Ok(mut out) = free_out.recv() else {
             return Ok(());
@@ -282,23 +282,9 @@ fn back_stage(
             };
             produced += back.run_piece(&mut batch.channel[at..at + m], wide, &mut out[produced..]);
         }
-        inputs += batch.inputs as u64;
-        since += batch.inputs as u64;
-        energy += out[..produced]
-            .iter()
-            .map(|&x| (x as f64) * (x as f64))
-            .sum::<f64>();
-        count += produced as u64;
-        if since as f64 >= 0.5 * input_rate {
-            if count > 0 {
-                control.publish_level(energy / count as f64);
-            }
-            if let Some(cnr) = back.cnr_db() {
-                control.publish_cnr(cnr);
-            }
-            control.publish_seconds(inputs as f64 / input_rate);
-            (since, energy, count) = (0, 0.0, 0);
-        }
+        tally.add(control, input_rate, batch.inputs, &out[..produced], || {
+            back.cnr_db()
+        });
         batch.lens.clear();
         batch.inputs = 0;
         batch.finish = false;
