@@ -334,16 +334,26 @@ impl ImpulseBlanker {
         self.set_bounds();
     }
 
-    /// A warm-up sample: whether it is an impulse (only a non-finite one is); moves the level.
-    fn warm_up(&mut self, x: Complex32) -> bool {
+    /// The power of `x`, or the verdict where no level reading applies: a non-finite sample
+    /// is an impulse (its ratio to the level is unbounded), a zero one is not.
+    fn screen(&mut self, x: Complex32) -> std::result::Result<f64, bool> {
         let power = power(x);
         if !power.is_finite() {
             self.count.largest_ratio = f64::INFINITY;
-            return true;
+            return Err(true);
         }
         if power == 0.0 {
-            return false;
+            return Err(false);
         }
+        Ok(power)
+    }
+
+    /// A warm-up sample: whether it is an impulse (only a non-finite one is); moves the level.
+    fn warm_up(&mut self, x: Complex32) -> bool {
+        let power = match self.screen(x) {
+            Ok(power) => power,
+            Err(impulse) => return impulse,
+        };
         self.seen += 1;
         let log = power.log2();
         let level = self.level.unwrap_or(log);
@@ -370,14 +380,10 @@ impl ImpulseBlanker {
     /// over it.
     #[cold]
     fn outside(&mut self, x: Complex32) -> bool {
-        let power = power(x);
-        if !power.is_finite() {
-            self.count.largest_ratio = f64::INFINITY;
-            return true;
-        }
-        if power == 0.0 {
-            return false;
-        }
+        let power = match self.screen(x) {
+            Ok(power) => power,
+            Err(impulse) => return impulse,
+        };
         let level = self.level.unwrap_or(0.0);
         let t = self.threshold_log2;
         self.sums.special_sum += (power.log2() - level).clamp(-t, t);
