@@ -38,3 +38,15 @@ impl Sample for Complex32 {
         self.re.is_finite() && self.im.is_finite()
     }
 }
+
+/// `Complex32` values as their interleaved re/im `f32`s.
+pub(crate) fn as_floats(x: &[Complex32]) -> &[f32] {
+    // SAFETY: Complex32 is #[repr(C)] { re: f32, im: f32 }, so n values are 2n f32s.
+    unsafe { std::slice::from_raw_parts(x.as_ptr().cast::<f32>(), 2 * x.len()) }
+}
+
+/// `Complex32` values as their interleaved re/im `f32`s, writable.
+pub(crate) fn as_floats_mut(x: &mut [Complex32]) -> &mut [f32] {
+    // SAFETY: as in `as_floats`; the borrow is exclusive.
+    unsafe { std::slice::from_raw_parts_mut(x.as_mut_ptr().cast::<f32>(), 2 * x.len()) }
+}

@@ -14,6 +14,7 @@
 //! M·L. The tests compare it with the direct form above.
 
 use crate::block::Block;
+use crate::sample::{as_floats, as_floats_mut};
 use crate::dsp::kaiser::{design_lowpass, LowpassSpec};
 use crate::{Complex32, Error, Result};
 use rustfft::{Fft, FftPlanner};
@@ -203,18 +204,6 @@ impl PolyphaseChannelizer {
         );
         self.fft.process_with_scratch(out, &mut self.scratch);
     }
-}
-
-/// `Complex32` values as their interleaved re/im `f32`s.
-fn as_floats(x: &[Complex32]) -> &[f32] {
-    // SAFETY: Complex32 is #[repr(C)] { re: f32, im: f32 }, so n values are 2n f32s.
-    unsafe { std::slice::from_raw_parts(x.as_ptr().cast::<f32>(), 2 * x.len()) }
-}
-
-/// `Complex32` values as their interleaved re/im `f32`s, writable.
-fn as_floats_mut(x: &mut [Complex32]) -> &mut [f32] {
-    // SAFETY: as in `as_floats`; the borrow is exclusive.
-    unsafe { std::slice::from_raw_parts_mut(x.as_mut_ptr().cast::<f32>(), 2 * x.len()) }
 }
 
 /// Floats accumulated in registers per tile of the polyphase sums.

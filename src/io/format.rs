@@ -11,6 +11,7 @@
 //! Encoding clips integer types at full scale and rounds to the nearest code; float types are
 //! written unchanged (a float has no full scale to clip at). Non-finite values encode as zero.
 
+use crate::sample::as_floats_mut;
 use crate::Complex32;
 
 /// A sample datatype: complex or real, component width and byte order.
@@ -41,18 +42,6 @@ pub enum SampleFormat {
 }
 
 /// `(b − 127.5) / 127.5` for every byte, built at compile time for the `cu8` hot path.
-const CU8_TABLE: [f32; 256] = cu8_table();
-
-const fn cu8_table() -> [f32; 256] {
-    let mut table = [0.0f32; 256];
-    let mut b = 0;
-    while b < 256 {
-        table[b] = (b as f32 - 127.5) / 127.5;
-        b += 1;
-    }
-    table
-}
-
 const I8_SCALE: f32 = 1.0 / 128.0;
 const I16_SCALE: f32 = 1.0 / 32768.0;
 const I32_SCALE: f32 = 1.0 / 2_147_483_648.0;
@@ -141,13 +130,14 @@ impl SampleFormat {
 
     /// Decodes as many whole samples as both `bytes` and `out` hold; returns how many.
     ///
-    /// This is the hot path: one tight loop per datatype (a 256-entry table for `cu8`).
+    /// This is the hot path: one tight loop per datatype (8- and 16-bit integers as one run of
+    /// components that vectorises).
     pub fn decode_slice(self, bytes: &[u8], out: &mut [Complex32]) -> usize {
         match self {
-            SampleFormat::Cu8 => complex::<1>(bytes, out, |c| CU8_TABLE[c[0] as usize]),
-            SampleFormat::Ci8 => complex::<1>(bytes, out, |c| c[0] as i8 as f32 * I8_SCALE),
+            SampleFormat::Cu8 => flat::<1>(bytes, out, |c| (c[0] as f32 - 127.5) / 127.5),
+            SampleFormat::Ci8 => flat::<1>(bytes, out, |c| c[0] as i8 as f32 * I8_SCALE),
             SampleFormat::Ci16Le => {
-                complex::<2>(bytes, out, |c| i16::from_le_bytes(c) as f32 * I16_SCALE)
+                flat::<2>(bytes, out, |c| i16::from_le_bytes(c) as f32 * I16_SCALE)
             }
             SampleFormat::Ci16Be => {
                 complex::<2>(bytes, out, |c| i16::from_be_bytes(c) as f32 * I16_SCALE)
@@ -235,6 +225,43 @@ fn to_i32(x: f32) -> i32 {
     (x as f64 * 2_147_483_648.0)
         .round()
         .clamp(i32::MIN as f64, i32::MAX as f64) as i32
+}
+
+/// Decodes interleaved I/Q pairs of `W`-byte components as one run of components, written
+/// straight into the samples' `f32`s: a loop the compiler vectorises (AVX2 where the CPU has
+/// it, chosen at run time). Callgrind on the am command's reader: the per-pair loop with a
+/// 256-entry table cost 7.5 instructions per cu8 sample.
+#[inline(always)]
+fn flat<const W: usize>(
+    bytes: &[u8],
+    out: &mut [Complex32],
+    component: impl Fn([u8; W]) -> f32 + Copy,
+) -> usize {
+    #[inline(always)]
+    fn kernel<const W: usize>(bytes: &[u8], out: &mut [f32], component: impl Fn([u8; W]) -> f32) {
+        for (o, c) in out.iter_mut().zip(bytes.chunks_exact(W)) {
+            *o = component(<[u8; W]>::try_from(c).unwrap_or([0; W]));
+        }
+    }
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    unsafe fn kernel_avx2<const W: usize>(
+        bytes: &[u8],
+        out: &mut [f32],
+        component: impl Fn([u8; W]) -> f32,
+    ) {
+        kernel(bytes, out, component)
+    }
+    let n = out.len().min(bytes.len() / (2 * W));
+    let (bytes, out) = (&bytes[..2 * W * n], as_floats_mut(&mut out[..n]));
+    #[cfg(target_arch = "x86_64")]
+    if std::arch::is_x86_feature_detected!("avx2") {
+        // SAFETY: the CPU has AVX2 (checked just above).
+        unsafe { kernel_avx2(bytes, out, component) };
+        return n;
+    }
+    kernel(bytes, out, component);
+    n
 }
 
 /// Decodes interleaved I/Q pairs of `W`-byte components.
@@ -360,6 +387,33 @@ mod tests {
                 f.encode(f.decode(&bytes), &mut back);
                 let n = f.bytes_per_sample();
                 assert_eq!(&back[..n], &bytes[..n], "{f} code {code}");
+            }
+        }
+    }
+
+    /// Every cu8, ci8 and ci16 code through the vectorised slice decoder against the scaling
+    /// written out in f64 (exact here: the codes and scales are exact in f32, and an f64
+    /// quotient rounded to f32 is the correctly rounded f32 quotient), in a long run so the
+    /// vector loop, not only its tail, is checked.
+    #[test]
+    fn vectorised_integer_decoding_matches_the_scaling() {
+        use SampleFormat::*;
+        let cases: [(SampleFormat, usize, fn(usize) -> f64); 3] = [
+            (Cu8, 256, |b| (b as f64 - 127.5) / 127.5),
+            (Ci8, 256, |b| b as u8 as i8 as f64 / 128.0),
+            (Ci16Le, 65536, |b| b as u16 as i16 as f64 / 32768.0),
+        ];
+        for (f, codes, want) in cases {
+            let w = f.bytes_per_component();
+            let bytes: Vec<u8> = (0..codes)
+                .flat_map(|code| [code, codes - 1 - code])
+                .flat_map(|code| (code as u32).to_le_bytes().into_iter().take(w))
+                .collect();
+            let mut out = vec![c(0.0, 0.0); codes];
+            assert_eq!(f.decode_slice(&bytes, &mut out), codes);
+            for (code, got) in out.iter().enumerate() {
+                assert_eq!(got.re, want(code) as f32, "{f} code {code}");
+                assert_eq!(got.im, want(codes - 1 - code) as f32, "{f} code {code}");
             }
         }
     }
