@@ -101,7 +101,6 @@ pub struct ChannelFrontEnd {
     noise_bandwidth_hz: f64,
     last_len: usize,
     unspiked: Vec<Complex32>,
-    tuned: Vec<Complex32>,
     decimated: Vec<Complex32>,
 }
 
@@ -142,7 +141,6 @@ impl ChannelFrontEnd {
             detection_rate,
             config,
             unspiked: vec![Complex32::default(); PIECE],
-            tuned: vec![Complex32::default(); PIECE],
             decimated: vec![Complex32::default(); mid],
         })
     }
@@ -174,9 +172,14 @@ impl PieceWise for ChannelFrontEnd {
             }
             None => input,
         };
-        let tuned = &mut self.tuned[..input.len()];
-        self.mixer.process(input, tuned);
-        let (_, n) = self.decimator.process(tuned, &mut self.decimated);
+        // The mixer writes its (finite) product straight into the first decimating filter's
+        // window.
+        let mixer = &mut self.mixer;
+        let (_, n) = self
+            .decimator
+            .process_through(input, &mut self.decimated, |x, slot| {
+                mixer.process(x, slot);
+            });
         self.spectrum.push(&self.decimated[..n]);
         self.channel.process(&self.decimated[..n], &mut output[..n]);
         self.last_len = n;

@@ -44,18 +44,15 @@ impl<T: Sample> History<T> {
     /// Appends `input` (at most `make_room()` samples). Non-finite samples are stored as zero so
     /// that one bad input cannot poison the output.
     pub(crate) fn push(&mut self, input: &[T]) {
-        let dst = &mut self.buf[self.len..self.len + input.len()];
-        if let (Some(d), Some(x)) = (
-            same_type_slice_mut::<T, Complex32>(dst),
-            same_type_slice::<T, Complex32>(input),
-        ) {
-            push_complex(d, x);
-        } else {
-            for (d, &x) in dst.iter_mut().zip(input) {
-                *d = if x.is_finite_sample() { x } else { T::ZERO };
-            }
-        }
-        self.len += input.len();
+        self.push_with(input.len(), |dst| store_finite(dst, input));
+    }
+
+    /// Appends `n` samples (at most `make_room()`) written in place by `write`, which must
+    /// fill its whole slice with finite samples (a mixer's output, say): the run is stored once
+    /// instead of written elsewhere and copied in.
+    pub(crate) fn push_with(&mut self, n: usize, write: impl FnOnce(&mut [T])) {
+        write(&mut self.buf[self.len..self.len + n]);
+        self.len += n;
     }
 
     /// Number of samples held (history plus new ones).
@@ -80,6 +77,20 @@ impl<T: Sample> History<T> {
     #[inline]
     pub(crate) fn latest(&self) -> &[T] {
         self.window(self.len)
+    }
+}
+
+/// Copies `src` into `dst`, non-finite samples as zero (what [`History::push`] stores).
+pub(crate) fn store_finite<T: Sample>(dst: &mut [T], src: &[T]) {
+    if let (Some(d), Some(x)) = (
+        same_type_slice_mut::<T, Complex32>(dst),
+        same_type_slice::<T, Complex32>(src),
+    ) {
+        push_complex(d, x);
+    } else {
+        for (d, &x) in dst.iter_mut().zip(src) {
+            *d = if x.is_finite_sample() { x } else { T::ZERO };
+        }
     }
 }
 

@@ -14,6 +14,7 @@
 
 use crate::block::{Block, PIECE};
 use crate::dsp::decimator::FirDecimator;
+use crate::dsp::history::store_finite;
 use crate::dsp::kaiser::{design_lowpass, kaiser_num_taps, LowpassSpec};
 use crate::sample::Sample;
 use crate::{Error, Result};
@@ -328,28 +329,19 @@ impl<T: Sample> MultiStageDecimator<T> {
         self.total_factor
     }
 
-    /// Runs one chunk (whose outputs are known to fit) through every stage.
-    fn run_chunk(&mut self, input: &[T], output: &mut [T]) -> usize {
-        let last = self.stages.len() - 1;
-        let mut len = input.len();
-        for i in 0..=last {
-            let (before, after) = self.buffers.split_at_mut(i);
-            let src: &[T] = if i == 0 { input } else { &before[i - 1][..len] };
-            let dst: &mut [T] = if i == last { output } else { &mut after[0] };
-            len = self.stages[i].process(src, dst).1;
-        }
-        len
-    }
-}
-
-impl<T: Sample> Block for MultiStageDecimator<T> {
-    type Input = T;
-    type Output = T;
-
-    fn process(&mut self, input: &[T], output: &mut [T]) -> (usize, usize) {
+    /// [`Block::process`] with the first stage's input written into its history by
+    /// `through` (see [`FirDecimator::process_through`]): a mixer in front of the cascade
+    /// stores its product straight into the first filter's window. Without stages, `through`
+    /// writes the output itself.
+    pub fn process_through(
+        &mut self,
+        input: &[T],
+        output: &mut [T],
+        mut through: impl FnMut(&[T], &mut [T]),
+    ) -> (usize, usize) {
         if self.stages.is_empty() {
             let n = input.len().min(output.len());
-            output[..n].copy_from_slice(&input[..n]);
+            through(&input[..n], &mut output[..n]);
             return (n, n);
         }
         let mut consumed = 0;
@@ -366,10 +358,46 @@ impl<T: Sample> Block for MultiStageDecimator<T> {
                 break;
             }
             let chunk = &input[consumed..consumed + n];
-            produced += self.run_chunk(chunk, &mut output[produced..]);
+            produced += self.run_chunk(chunk, &mut output[produced..], &mut through);
             consumed += n;
         }
         (consumed, produced)
+    }
+
+    /// Runs one chunk (whose outputs are known to fit) through every stage.
+    fn run_chunk(
+        &mut self,
+        input: &[T],
+        output: &mut [T],
+        through: &mut impl FnMut(&[T], &mut [T]),
+    ) -> usize {
+        let last = self.stages.len() - 1;
+        let mut len = input.len();
+        for i in 0..=last {
+            let (before, after) = self.buffers.split_at_mut(i);
+            let dst: &mut [T] = if i == last { output } else { &mut after[0] };
+            len = if i == 0 {
+                self.stages[0].process_through(input, dst, &mut *through).1
+            } else {
+                self.stages[i].process(&before[i - 1][..len], dst).1
+            };
+        }
+        len
+    }
+}
+
+impl<T: Sample> Block for MultiStageDecimator<T> {
+    type Input = T;
+    type Output = T;
+
+    fn process(&mut self, input: &[T], output: &mut [T]) -> (usize, usize) {
+        if self.stages.is_empty() {
+            // The stages' history would zero non-finite samples; a copy keeps them as they are.
+            let n = input.len().min(output.len());
+            output[..n].copy_from_slice(&input[..n]);
+            return (n, n);
+        }
+        self.process_through(input, output, |x, slot| store_finite(slot, x))
     }
 
     fn max_output_len(&self, input_len: usize) -> usize {
