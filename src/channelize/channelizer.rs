@@ -14,8 +14,8 @@
 //! M·L. The tests compare it with the direct form above.
 
 use crate::block::Block;
-use crate::sample::{as_floats, as_floats_mut};
 use crate::dsp::kaiser::{design_lowpass, LowpassSpec};
+use crate::sample::{as_floats, as_floats_mut};
 use crate::{Complex32, Error, Result};
 use rustfft::{Fft, FftPlanner};
 use std::sync::Arc;

@@ -117,7 +117,12 @@ fn rotate(input: &[Complex32], start: Complex32, table: &[Complex32], output: &m
         // SAFETY: the CPU has AVX2 (checked just above).
         done = unsafe { rotate_avx2(&input[..n], start, &table[..n], &mut output[..n]) };
     }
-    rotate_portable(&input[done..n], start, &table[done..n], &mut output[done..n]);
+    rotate_portable(
+        &input[done..n],
+        start,
+        &table[done..n],
+        &mut output[done..n],
+    );
 }
 
 /// The portable twin of [`rotate_avx2`], and its tail.

@@ -139,7 +139,7 @@ impl<T: Sample> RationalResampler<T> {
             let Some(slot) = output.first_mut() else {
                 return (0, 0);
             };
-            *slot = self.phases[0].dot(self.history.latest());
+            *slot = self.output_at(self.history.len());
             produced = 1;
             self.advance();
         }
@@ -159,14 +159,37 @@ impl<T: Sample> RationalResampler<T> {
             consumed += take;
             let stop = start + take;
             let mut end = start + self.until_output;
+            if self.down == 1 && end <= stop {
+                // Every input is an output: one run of consecutive windows (`Taps::run`).
+                let count = stop - end + 1;
+                self.phases[0].run(
+                    self.history.windows(end, count - 1),
+                    &mut output[produced..produced + count],
+                );
+                produced += count;
+                end = stop + 1;
+            }
             while end <= stop {
-                output[produced] = self.phases[0].dot(self.history.window(end));
+                output[produced] = self.output_at(end);
                 produced += 1;
                 end += self.down;
             }
             self.until_output = end - stop;
         }
         (consumed, produced)
+    }
+
+    /// The fixed-ratio output whose window ends at `end` in the history; at 1/1 summed as
+    /// `Taps::run` sums, so an output is the same alone or in a run.
+    fn output_at(&self, end: usize) -> T {
+        let taps = &self.phases[0];
+        if self.down == 1 {
+            let mut one = [T::ZERO];
+            taps.run(self.history.window(end), &mut one);
+            one[0]
+        } else {
+            taps.dot(self.history.window(end))
+        }
     }
 
     /// Moves to the next output time t += M (+ the trim).
@@ -422,7 +445,10 @@ mod tests {
         assert_eq!(switched.len(), 2_000 - 100);
         // After the trim, the same filter on a shifted stream: output k of the last piece is
         // plain's output k + 100 (the 200 inputs skipped are 100 steps of 2).
-        assert_eq!(&switched[switched.len() - 400..], &plain[plain.len() - 400..]);
+        assert_eq!(
+            &switched[switched.len() - 400..],
+            &plain[plain.len() - 400..]
+        );
     }
 
     /// A prototype for L = M near 1: passband to 0.4·fs, stopband from fs/2, 60 dB.

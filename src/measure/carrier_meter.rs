@@ -814,11 +814,17 @@ mod tests {
             (-0.4, 0.1, 0.05),
         ] {
             let scale = 1.0 / (sigma * std::f64::consts::SQRT_2);
-            let full: f64 = cosines.iter().map(|&c| erfc((d - mu * c) * scale)).sum::<f64>()
+            let full: f64 = cosines
+                .iter()
+                .map(|&c| erfc((d - mu * c) * scale))
+                .sum::<f64>()
                 / (2.0 * MODEL_POINTS as f64);
             let got = exceedance(&cosines, mu, d, sigma);
             // Rounding of 1024 terms in a different order: 1e-14 of the sum's scale.
-            assert!((got - full).abs() < 1e-14, "{mu} {d} {sigma}: {got} vs {full}");
+            assert!(
+                (got - full).abs() < 1e-14,
+                "{mu} {d} {sigma}: {got} vs {full}"
+            );
         }
     }
 
