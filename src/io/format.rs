@@ -398,7 +398,8 @@ mod tests {
     #[test]
     fn vectorised_integer_decoding_matches_the_scaling() {
         use SampleFormat::*;
-        let cases: [(SampleFormat, usize, fn(usize) -> f64); 3] = [
+        type Scaling = fn(usize) -> f64;
+        let cases: [(SampleFormat, usize, Scaling); 3] = [
             (Cu8, 256, |b| (b as f64 - 127.5) / 127.5),
             (Ci8, 256, |b| b as u8 as i8 as f64 / 128.0),
             (Ci16Le, 65536, |b| b as u16 as i16 as f64 / 32768.0),
