@@ -7,7 +7,7 @@ use super::blank_guard::{Blanking, BlankingGuard};
 use super::config::{ModeSettings, ReceiverConfig};
 use super::detector::{Detector, DetectorContext, ModeDetector};
 use super::front_end::{ChannelFrontEnd, FrontEnd, FrontEndConfig};
-use super::halves::{BackHalf, FrontHalf};
+use super::halves::{BackHalf, FrontHalf, GuardHalf};
 use super::iq_guard::IqBalanceGuard;
 use super::receiver::{Measurements, Receiver};
 use super::{Mode, Transmission};
@@ -69,9 +69,17 @@ pub struct Assembly<D: Detector> {
 /// The assembly's first half, at the input rate: the guards and the front end. On two
 /// threads ([`Assembly::halves`]) it runs on one and [`Tail`] on the other.
 pub struct Head {
-    guards: Vec<Guard>,
+    guards: GuardChain,
     front: Box<dyn FrontEnd>,
-    guarded: [Vec<Complex32>; 2],
+    /// The guards' output of the current piece (empty without guards).
+    guarded: Vec<Complex32>,
+}
+
+/// The guards of a [`Head`], in order, with their scratch: on two threads
+/// ([`FrontHalf::split_guards`]) they run on the reader's thread as a [`GuardHalf`].
+pub struct GuardChain {
+    list: Vec<Guard>,
+    scratch: [Vec<Complex32>; 2],
 }
 
 /// The assembly's second half, at the detection rate: detector, measurement stage, gain
@@ -258,12 +266,14 @@ impl<D: Detector> Assembly<D> {
         };
         Ok(Assembly {
             head: Head {
-                guards,
+                guarded: vec![Complex32::default(); if guards.is_empty() { 0 } else { PIECE }],
+                guards: GuardChain {
+                    scratch: std::array::from_fn(|_| {
+                        vec![Complex32::default(); if guards.len() > 1 { PIECE } else { 0 }]
+                    }),
+                    list: guards,
+                },
                 front,
-                guarded: [
-                    vec![Complex32::default(); PIECE],
-                    vec![Complex32::default(); PIECE],
-                ],
             },
             tail: Tail {
                 agcs: (0..channels).map(agc).collect::<Result<Vec<_>>>()?,
@@ -342,33 +352,45 @@ impl<D: Detector> PieceWise for Assembly<D> {
 }
 
 impl Head {
-    /// Runs the guards over `input` into the guard buffers; returns which buffer holds the
-    /// result, or `None` when there are no guards.
-    fn guard(&mut self, input: &[Complex32]) -> Option<usize> {
-        let n = input.len();
-        let mut at = None;
-        for guard in &mut self.guards {
-            let [a, b] = &mut self.guarded;
-            let (from, to, next) = match at {
-                None => (input, &mut a[..n], 0),
-                Some(0) => (&a[..n], &mut b[..n], 1),
-                Some(_) => (&b[..n], &mut a[..n], 0),
-            };
-            guard.process(from, to);
-            at = Some(next);
-        }
-        at
-    }
-
     /// One piece of IQ through the guards and the front end into `channel`; returns the
     /// channel samples written (the front end's wide view holds as many, or none).
     fn run(&mut self, input: &[Complex32], channel: &mut [Complex32]) -> usize {
-        let guarded = self.guard(input);
-        let front_input = match guarded {
-            None => input,
-            Some(k) => &self.guarded[k][..input.len()],
-        };
-        self.front.process(front_input, channel).1
+        self.run_piece(input, channel, &mut []).0
+    }
+}
+
+impl GuardHalf for GuardChain {
+    /// Every guard in turn, the last writing into `output`, piece by piece
+    /// ([`crate::block::PIECE`]; the guards give the same samples however the input is cut).
+    fn guard(&mut self, input: &[Complex32], output: &mut [Complex32]) {
+        let last = self.list.len().saturating_sub(1);
+        for (x, out) in input.chunks(PIECE).zip(output.chunks_mut(PIECE)) {
+            let n = x.len();
+            // Where the previous guard's output is: `None` for `x`, else a scratch buffer.
+            let mut at = None;
+            for (i, guard) in self.list.iter_mut().enumerate() {
+                let [a, b] = &mut self.scratch;
+                let (from, to, next): (&[Complex32], &mut [Complex32], _) = match (at, i == last) {
+                    (None, true) => (x, &mut out[..n], None),
+                    (None, false) => (x, &mut a[..n], Some(0)),
+                    (Some(0), true) => (&a[..n], &mut out[..n], None),
+                    (Some(0), false) => (&a[..n], &mut b[..n], Some(1)),
+                    (Some(_), true) => (&b[..n], &mut out[..n], None),
+                    (Some(_), false) => (&b[..n], &mut a[..n], Some(0)),
+                };
+                guard.process(from, to);
+                at = next;
+            }
+            if self.list.is_empty() {
+                out[..n].copy_from_slice(x);
+            }
+        }
+    }
+
+    fn retune(&mut self, offset_hz: f64) {
+        for guard in &mut self.list {
+            guard.retune(offset_hz);
+        }
     }
 }
 
@@ -432,8 +454,49 @@ impl FrontHalf for Head {
         channel: &mut [Complex32],
         wide: &mut [Complex32],
     ) -> (usize, usize) {
-        let m = self.run(input, channel);
-        let view = self.front.wide_view();
+        let front_input = if self.guards.list.is_empty() {
+            input
+        } else {
+            let guarded = &mut self.guarded[..input.len()];
+            self.guards.guard(input, guarded);
+            guarded
+        };
+        self.front.run_piece(front_input, channel, wide)
+    }
+
+    fn max_piece_output(&self) -> usize {
+        self.front.max_piece_output()
+    }
+
+    fn set_offset(&mut self, offset_hz: f64) -> Result<f64> {
+        let step = FrontHalf::set_offset(&mut self.front, offset_hz)?;
+        self.guards.retune(offset_hz);
+        Ok(step)
+    }
+
+    fn offset_hz(&self) -> f64 {
+        self.front.offset_hz()
+    }
+
+    fn split_guards(&mut self) -> Option<(&mut dyn GuardHalf, &mut dyn FrontHalf)> {
+        if self.guards.list.is_empty() {
+            return None;
+        }
+        Some((&mut self.guards, &mut self.front))
+    }
+}
+
+/// The front end alone as a first half: what is left of a [`Head`] once its guards run
+/// elsewhere.
+impl FrontHalf for Box<dyn FrontEnd> {
+    fn run_piece(
+        &mut self,
+        input: &[Complex32],
+        channel: &mut [Complex32],
+        wide: &mut [Complex32],
+    ) -> (usize, usize) {
+        let m = self.process(input, channel).1;
+        let view = self.wide_view();
         if wide.len() >= m && view.len() == m {
             wide[..m].copy_from_slice(view);
             return (m, m);
@@ -442,20 +505,17 @@ impl FrontHalf for Head {
     }
 
     fn max_piece_output(&self) -> usize {
-        self.front.max_output_len(PIECE)
+        self.max_output_len(PIECE)
     }
 
     fn set_offset(&mut self, offset_hz: f64) -> Result<f64> {
-        let step = offset_hz - self.front.offset_hz();
-        self.front.set_offset(offset_hz)?;
-        for guard in &mut self.guards {
-            guard.retune(offset_hz);
-        }
+        let step = offset_hz - self.offset_hz();
+        FrontEnd::set_offset(self.as_mut(), offset_hz)?;
         Ok(step)
     }
 
     fn offset_hz(&self) -> f64 {
-        self.front.offset_hz()
+        FrontEnd::offset_hz(self.as_ref())
     }
 }
 
@@ -509,13 +569,13 @@ impl<D: Detector> Block for Assembly<D> {
     }
 
     fn delay(&self) -> f64 {
-        let guards: f64 = self.head.guards.iter().map(|g| g.delay()).sum();
+        let guards: f64 = self.head.guards.list.iter().map(|g| g.delay()).sum();
         let after_front = self.tail.detector.delay() + self.tail.audio[0].delay();
         guards + self.head.front.delay() + after_front / self.head.front.rate_ratio()
     }
 
     fn reset(&mut self) {
-        for guard in &mut self.head.guards {
+        for guard in &mut self.head.guards.list {
             guard.reset();
         }
         self.head.front.reset();
@@ -574,7 +634,7 @@ impl<D: Detector> Receiver for Assembly<D> {
             fill_from_meter(meter, &mut m);
         }
         self.tail.detector.measure(self.head.front.as_ref(), &mut m);
-        for guard in &self.head.guards {
+        for guard in &self.head.guards.list {
             guard.report(&mut m);
         }
         if self.tail.meter.is_some() {

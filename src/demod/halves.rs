@@ -24,6 +24,23 @@ pub trait FrontHalf: Send {
     fn set_offset(&mut self, offset_hz: f64) -> Result<f64>;
     /// The tuned frequency relative to the recording centre, in Hz.
     fn offset_hz(&self) -> f64;
+    /// Cuts the guards off, to run on another thread ahead of the rest: `(guards, rest)`,
+    /// where `rest.run_piece` takes IQ the guards have already seen. Run one after the other
+    /// on the same samples, the two are this half. `None` when there is nothing to cut off.
+    fn split_guards(&mut self) -> Option<(&mut dyn GuardHalf, &mut dyn FrontHalf)> {
+        None
+    }
+}
+
+/// The front-end guards of a first half ([`FrontHalf::split_guards`]): IQ at the input rate in
+/// and out, sample for sample.
+pub trait GuardHalf: Send {
+    /// `input` through every guard into `output` (as long as `input`); the samples do not
+    /// depend on how the input is cut.
+    fn guard(&mut self, input: &[Complex32], output: &mut [Complex32]);
+    /// The front end was retuned to `offset_hz` (a blanked stretch is carried on at the tuned
+    /// frequency).
+    fn retune(&mut self, offset_hz: f64);
 }
 
 /// The second half: the channel (and the front end's wide view of it) in, interleaved audio

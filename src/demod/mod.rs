@@ -49,7 +49,7 @@ pub use diode::{capacitor_voltage, diode_step, DiodeConfig, DiodeDetector};
 pub use dsb::{DsbDetector, DsbReceiver};
 pub use envelope::EnvelopeDetector;
 pub use front_end::{ChannelFrontEnd, FrontEnd, FrontEndConfig};
-pub use halves::{BackHalf, FrontHalf};
+pub use halves::{BackHalf, FrontHalf, GuardHalf};
 pub use iq_guard::IqBalanceGuard;
 pub use isb::{IsbDetector, IsbReceiver};
 pub use receiver::{Measurements, Receiver};
