@@ -53,6 +53,11 @@ const REFERENCE_SPAN_S: f64 = 0.025;
 const STEADY_RATIO: f64 = 0.8;
 /// Window length the meter uses when none is given, in seconds.
 pub const DEFAULT_WINDOW_S: f64 = 0.1;
+/// Samples the meter takes in at a time.
+const METER_BLOCK: usize = 4096;
+/// Room in the meter's lines past the reference's span: the last span is moved back to the
+/// start once per this many samples.
+const LINE_ROOM: usize = 8 * METER_BLOCK;
 
 /// What the meter needs to know about the receiver feeding it.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -167,14 +172,15 @@ pub struct CarrierMeter {
     /// Centring delay of the reference, in samples.
     lag: usize,
     reference: Triangle,
+    /// The samples pushed (non-finite ones as zero), kept linear: the `lag` before `at` and
+    /// whatever came earlier since the last shift, so the delayed samples a block meters are
+    /// one slice.
     envelope_line: Vec<f32>,
     wide_line: Vec<Complex32>,
-    /// The slot of `envelope_line` and `wide_line` the next sample goes to.
-    slot: usize,
-    /// Delayed wide samples of the current window not yet in `spectrum`: they go in as one
-    /// slice per push or window (callgrind on the am command: a spectrum push per sample cost
-    /// 150 instructions per sample).
-    delayed: Vec<Complex32>,
+    /// The reference computed at each sample of the lines.
+    references: Vec<f64>,
+    /// Where the next sample goes in the lines.
+    at: usize,
     spectrum: PowerSpectrum,
     density: Vec<f64>,
     ratios: Vec<f32>,
@@ -269,10 +275,10 @@ impl CarrierMeter {
             window_len,
             lag: span - 1,
             reference: Triangle::new(span),
-            envelope_line: vec![0.0; span],
-            wide_line: vec![Complex32::default(); span],
-            slot: 0,
-            delayed: Vec::with_capacity(window_len),
+            envelope_line: vec![0.0; span - 1 + LINE_ROOM],
+            wide_line: vec![Complex32::default(); span - 1 + LINE_ROOM],
+            references: vec![0.0; span - 1 + LINE_ROOM],
+            at: span - 1,
             density: vec![0.0; fft_len],
             spectrum,
             ratios: Vec::with_capacity(window_len),
@@ -326,8 +332,27 @@ impl CarrierMeter {
         if let Some(l) = locked {
             self.lock_all = Some(self.lock_all.unwrap_or(true) && l);
         }
-        let line = self.envelope_line.len();
-        let has_envelope = envelope.is_some();
+        for (k, block) in wide.chunks(METER_BLOCK).enumerate() {
+            let envelope = envelope.map(|e| e.get(k * METER_BLOCK..).unwrap_or(&[]));
+            self.push_block(block, envelope);
+        }
+    }
+
+    /// At most [`METER_BLOCK`] samples: the lines and references first (the reference is a
+    /// running filter, sample by sample), then the delayed samples they complete, a window's
+    /// stretch at a time (callgrind on the am command: sample by sample through a ring, the
+    /// meter cost 150 instructions per sample).
+    fn push_block(&mut self, wide: &[Complex32], envelope: Option<&[f32]>) {
+        let n = wide.len();
+        let lag = self.lag;
+        if self.at + n > self.wide_line.len() {
+            // Keep only the last `lag` samples (references are read at or after `at`).
+            let from = self.at - lag;
+            self.envelope_line.copy_within(from..self.at, 0);
+            self.wide_line.copy_within(from..self.at, 0);
+            self.at = lag;
+        }
+        let at = self.at;
         for (i, &w) in wide.iter().enumerate() {
             let e = envelope
                 .and_then(|e| e.get(i))
@@ -339,37 +364,46 @@ impl CarrierMeter {
             } else {
                 Complex32::default()
             };
-            self.envelope_line[self.slot] = e;
-            self.wide_line[self.slot] = w;
-            let reference = self.reference.next(f64::from(e));
-            self.pushed += 1;
-            self.slot += 1;
-            if self.slot == line {
-                self.slot = 0;
-            }
-            if self.pushed >= line as u64 {
-                // The next slot holds the sample `lag` = line − 1 pushes old: the reference's
-                // centre.
-                let (e_c, w_c) = (self.envelope_line[self.slot], self.wide_line[self.slot]);
-                self.meter_sample(e_c, w_c, reference, has_envelope);
-            }
+            self.envelope_line[at + i] = e;
+            self.wide_line[at + i] = w;
+            self.references[at + i] = self.reference.next(f64::from(e));
         }
-        self.spectrum.push(&self.delayed);
-        self.delayed.clear();
+        // The reference at input `pushed + i` is centred on the sample `lag` pushes older, at
+        // `at + i − lag` in the lines; the first `lag` inputs of the run complete none.
+        let first = (lag as u64).saturating_sub(self.pushed).min(n as u64) as usize;
+        self.pushed += n as u64;
+        self.at += n;
+        let mut i = first;
+        while i < n {
+            let take = (self.window_len - self.in_window).min(n - i);
+            self.meter_run(at + i - lag, at + i - lag + take, envelope.is_some());
+            i += take;
+        }
     }
 
-    fn meter_sample(&mut self, e: f32, w: Complex32, reference: f64, has_envelope: bool) {
+    /// Meters the delayed samples at `a..b` of the lines (inside one window); their
+    /// references are `lag` samples later.
+    fn meter_run(&mut self, a: usize, b: usize, has_envelope: bool) {
         let k = self.metered;
-        self.metered += 1;
-        self.delayed.push(w);
-        let settled = k >= (self.settings.settling_samples + self.lag) as u64;
-        if has_envelope && settled && reference > 0.0 {
-            self.ratios.push((f64::from(e) / reference) as f32);
-            self.reference_sum += reference;
-            self.reference_min = self.reference_min.min(reference);
-            self.reference_max = self.reference_max.max(reference);
+        self.metered += (b - a) as u64;
+        self.spectrum.push(&self.wide_line[a..b]);
+        if has_envelope {
+            let settling = (self.settings.settling_samples + self.lag) as u64;
+            let settled = a + settling.saturating_sub(k).min((b - a) as u64) as usize;
+            let lag = self.lag;
+            for (&e, &reference) in self.envelope_line[settled..b]
+                .iter()
+                .zip(&self.references[settled + lag..b + lag])
+            {
+                if reference > 0.0 {
+                    self.ratios.push((f64::from(e) / reference) as f32);
+                    self.reference_sum += reference;
+                    self.reference_min = self.reference_min.min(reference);
+                    self.reference_max = self.reference_max.max(reference);
+                }
+            }
         }
-        self.in_window += 1;
+        self.in_window += b - a;
         if self.in_window == self.window_len {
             self.close_window();
         }
@@ -395,8 +429,6 @@ impl CarrierMeter {
     }
 
     fn close_window(&mut self) {
-        self.spectrum.push(&self.delayed);
-        self.delayed.clear();
         let fs = self.settings.sample_rate;
         let duration_s = self.in_window as f64 / fs;
         let start_s = self.window_start as f64 / fs - self.settings.time_offset_s;
@@ -481,14 +513,8 @@ impl CarrierMeter {
         let n = self.ratios.len();
         let hi_at = (((1.0 - PEAK_TAIL) * (n - 1) as f64).round() as usize).min(n - 1);
         let lo_at = ((PEAK_TAIL * (n - 1) as f64).round() as usize).min(n - 1);
-        let (below, high, _) = self.ratios.select_nth_unstable_by(hi_at, f32::total_cmp);
-        let hi = f64::from(*high);
-        // lo_at < hi_at: the low quantile is among the values below the high one.
-        let lo = if lo_at < hi_at {
-            f64::from(*below.select_nth_unstable_by(lo_at, f32::total_cmp).1)
-        } else {
-            hi
-        };
+        let hi = f64::from(*self.ratios.select_nth_unstable_by(hi_at, f32::total_cmp).1);
+        let lo = f64::from(*self.ratios.select_nth_unstable_by(lo_at, f32::total_cmp).1);
         let sigma = (n0 * s.channel_noise_bandwidth_hz / 2.0 / carrier).sqrt();
         reading.positive = noise_corrected_peak(hi * scale - 1.0, sigma, PEAK_TAIL);
         let trough = lo * scale;
