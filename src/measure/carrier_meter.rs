@@ -818,7 +818,7 @@ mod tests {
             let (mut low, mut high) = (0.0, 4.0);
             for _ in 0..60 {
                 let mid = 0.5 * (low + high);
-                if exceedance(&cosines, mid, reading, sigma) < PEAK_TAIL {
+                if exceedance(cosines, mid, reading, sigma) < PEAK_TAIL {
                     low = mid;
                 } else {
                     high = mid;
@@ -854,7 +854,7 @@ mod tests {
                 .map(|&c| erfc((d - mu * c) * scale))
                 .sum::<f64>()
                 / (2.0 * MODEL_POINTS as f64);
-            let got = exceedance(&cosines, mu, d, sigma);
+            let got = exceedance(cosines, mu, d, sigma);
             // Rounding of 1024 terms in a different order: 1e-14 of the sum's scale.
             assert!(
                 (got - full).abs() < 1e-14,
