@@ -6,8 +6,8 @@
 //! Operation count per input sample (a hand count, our own, from the chain's structure and
 //! its decimation plan; real floating-point operations, a multiply-add counted as two):
 //! overload guard 6 (|x|² 3, two comparisons with the block's bounds 2, the mantissa product
-//! 1; its level moves once per block of 256), mixer 12 (complex multiply 6, per-block
-//! rotation in f64 6), decimation 4 × the plan's real-tap multiplies per input (a complex
+//! 1; its level moves once per block of 256), mixer 12 (the rotation start·table[k] formed
+//! per sample 6, the product 6), decimation 4 × the plan's real-tap multiplies per input (a complex
 //! sample times a real tap is 2 multiplies and 2 adds). Stages at the detection rate (channel
 //! filter, detector, audio) run 50 times less often and are left out, so the count is a
 //! lower bound.
