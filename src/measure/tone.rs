@@ -148,9 +148,10 @@ impl Sine {
                 v[i] += r[i] * xn;
             }
         }
-        for i in 1..4 {
-            for j in 0..i {
-                m[i][j] = m[j][i];
+        let upper = m;
+        for (i, row) in m.iter_mut().enumerate() {
+            for (j, value) in row.iter_mut().enumerate().take(i) {
+                *value = upper[j][i];
             }
         }
         if previous.is_none() {
