@@ -1,17 +1,21 @@
 //! One stream on two cores: the receive job's runtime with the receiver cut in two
-//! ([`Receiver::halves`](crate::demod::Receiver::halves)). Four threads joined by bounded
-//! crossbeam channels carrying recycled buffers:
+//! ([`Receiver::halves`](crate::demod::Receiver::halves)). Three threads joined by bounded
+//! crossbeam channels carrying recycled buffers, two of them busy:
 //!
 //! ```text
-//!  read + decode + guards ──▶ front end (mixer, decimators, channel filter)
-//!                       ──(batches of pieces: channel + wide view)──▶
-//!                    back half (detector, meter, AGC, audio stage) ──▶ write
+//!  thread 1: read + decode + guards ──▶ thread 2: front end (mixer, decimators, channel filter)
+//!                     ◀──(batches of pieces: channel + wide view)──┘
+//!  thread 1: back half (detector, meter, AGC, audio stage) ──▶ thread 3: write
 //! ```
 //!
 //! The front half's guards ([`FrontHalf::split_guards`]) run on the reader's thread, which
-//! otherwise only decodes: callgrind on the am command (2 s of cu8 at 2.4 MS/s) counted the
-//! overload guard at 28 M of the front half's 106 M instructions, and the reader at 19 M.
-//! Retunes are taken there too, so guards and front end move at the same buffer's start.
+//! otherwise only decodes, and the back half runs there too (`edge_stage` takes whichever
+//! has work): callgrind on the am command (2 s of cu8 at 2.4 MS/s) counted reading and guards
+//! at 41.8 M instructions and the back half at 38.1 M, against the front end's 76.1 M, so the
+//! two busy threads weigh about the same and each can keep a core (with the reader, the front
+//! half and the back half on three threads, the two cores were time-sliced among them:
+//! twice the involuntary context switches, 5–9 % more wall time in alternated runs).
+//! Retunes are taken by the reader, so guards and front end move at the same buffer's start.
 //!
 //! The front half cuts each input buffer into the same pieces the one-thread receiver does
 //! ([`crate::block::PIECE`]) and the back half runs each piece as the one-thread receiver's
@@ -24,7 +28,7 @@ use super::runtime::{joined, pool, write_stage, Filled, RunTotals, RuntimeConfig
 use crate::block::{FLUSH_PIECE, PIECE};
 use crate::demod::{BackHalf, FrontHalf, GuardHalf};
 use crate::{Complex32, Error, Result};
-use crossbeam_channel::{bounded, Receiver as Rx, Sender as Tx};
+use crossbeam_channel::{bounded, Receiver as Rx, Select, Sender as Tx};
 use std::thread;
 
 /// What the run needs to know of the whole receiver before it is cut in two.
@@ -122,16 +126,28 @@ where
     let raw = vec![Complex32::default(); if guards.is_some() { chunk } else { 0 }];
 
     thread::scope(|scope| {
-        let reader = scope.spawn(move || {
-            let mut stage = ReadStage {
+        let edge = scope.spawn(move || {
+            let read = ReadStage {
                 source,
                 guards,
                 control,
                 raw,
                 free: free_in_rx,
-                full: full_in_tx,
+                full: Some(full_in_tx),
+                reading: Reading::Source,
+                flush_len: plan.flush_len,
+                total: 0,
             };
-            stage.run(plan.flush_len)
+            let back = BackStage {
+                back,
+                control,
+                input_rate: plan.input_rate,
+                tally: StatusTally::default(),
+                free: free_batch_tx,
+                free_out: free_out_rx,
+                full_out: full_out_tx,
+            };
+            Ok(edge_stage(read, back, full_batch_rx))
         });
         let fronted = scope.spawn(move || {
             let mut stage = FrontStage {
@@ -144,21 +160,9 @@ where
             };
             stage.run(full_in_rx, free_in_tx, plan.flush_len)
         });
-        let backed = scope.spawn(move || {
-            back_stage(
-                back,
-                control,
-                plan.input_rate,
-                full_batch_rx,
-                free_batch_tx,
-                free_out_rx,
-                full_out_tx,
-            )
-        });
         let writer = scope.spawn(move || write_stage(&mut sink, full_out_rx, free_out_tx));
-        let read = joined(reader, "source");
+        let (read, back_done) = joined(edge, "dsp").unwrap_or_else(|panic| (Err(panic), Ok(())));
         let front_done = joined(fronted, "dsp");
-        let back_done = joined(backed, "dsp");
         let written = joined(writer, "sink");
         Ok(RunTotals {
             samples_in: read?,
@@ -171,8 +175,20 @@ where
     })
 }
 
-/// The reader's thread: reads and decodes, and, when the guards were cut off the front half,
-/// takes retunes, guards each buffer and sends the end-of-input flush through the guards.
+/// Where the reader is.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Reading {
+    /// Reading the source.
+    Source,
+    /// The source has ended; this many flush samples are left to send through the guards.
+    Flush(usize),
+    /// Nothing more to send (the front half has been told: the input channel is closed).
+    Done,
+}
+
+/// Reading and decoding, and, when the guards were cut off the front half, taking retunes,
+/// guarding each buffer and sending the end-of-input flush through the guards. Driven one free
+/// buffer at a time by [`edge_stage`].
 struct ReadStage<'a, Src> {
     source: Src,
     guards: Option<&'a mut dyn GuardHalf>,
@@ -180,35 +196,77 @@ struct ReadStage<'a, Src> {
     /// What the source reads before the guards (empty without guards).
     raw: Vec<Complex32>,
     free: Rx<Vec<Complex32>>,
-    full: Tx<Input>,
+    /// Closed (dropped) once everything is sent.
+    full: Option<Tx<Input>>,
+    reading: Reading,
+    flush_len: usize,
+    /// Samples read so far.
+    total: u64,
 }
 
 impl<Src> ReadStage<'_, Src>
 where
     Src: FnMut(&mut [Complex32]) -> Result<usize>,
 {
-    /// Reads until the source returns 0; returns the samples read.
-    fn run(&mut self, flush_len: usize) -> Result<u64> {
-        let mut total = 0u64;
-        while let Ok(mut buf) = self.free.recv() {
+    /// One free buffer filled (from the source, or with guarded flush zeros) and sent on.
+    fn step(&mut self, mut buf: Vec<Complex32>) -> Result<()> {
+        if self.reading == Reading::Source {
             let (len, retune) = self.read_into(&mut buf)?;
-            if len == 0 {
-                // The buffer goes back to the pool for the flush.
-                self.flush(buf, flush_len);
-                return Ok(total);
+            if len > 0 {
+                self.total += len as u64;
+                let filled = Filled { buf, len };
+                return self.send(Input {
+                    filled,
+                    retune,
+                    flush: false,
+                });
             }
-            total += len as u64;
-            let filled = Filled { buf, len };
-            let input = Input {
-                filled,
-                retune,
-                flush: false,
+            // Without guards the front half feeds the flush's zeros itself.
+            let flush = if self.guards.is_some() {
+                self.flush_len
+            } else {
+                0
             };
-            if self.full.send(input).is_err() {
-                break;
-            }
+            self.reading = Reading::Flush(flush);
         }
-        Ok(total)
+        let Reading::Flush(left) = self.reading else {
+            return Ok(());
+        };
+        let Some(guards) = self.guards.as_mut().filter(|_| left > 0) else {
+            self.stop();
+            return Ok(());
+        };
+        let n = left.min(buf.len()).min(self.raw.len());
+        self.raw[..n].fill(Complex32::default());
+        guards.guard(&self.raw[..n], &mut buf[..n]);
+        self.reading = Reading::Flush(left - n);
+        self.send(Input {
+            filled: Filled { buf, len: n },
+            retune: None,
+            flush: true,
+        })?;
+        if left == n {
+            self.stop();
+        }
+        Ok(())
+    }
+
+    /// Sends a buffer on; a front half that has gone ends the reading.
+    fn send(&mut self, input: Input) -> Result<()> {
+        let sent = self
+            .full
+            .as_ref()
+            .is_some_and(|full| full.send(input).is_ok());
+        if !sent {
+            self.stop();
+        }
+        Ok(())
+    }
+
+    /// Nothing more to read: closing the input channel tells the front half.
+    fn stop(&mut self) {
+        self.reading = Reading::Done;
+        self.full = None;
     }
 
     /// One buffer from the source, through the guards if they run here.
@@ -228,37 +286,6 @@ where
         }
         guards.guard(&self.raw[..n], &mut buf[..n]);
         Ok((n, retune))
-    }
-
-    /// With the guards here: `flush_len` zeros through them, in buffers marked as flush
-    /// (without guards the front half feeds the zeros itself).
-    fn flush(&mut self, first: Vec<Complex32>, flush_len: usize) {
-        let Some(guards) = self.guards.as_mut() else {
-            return;
-        };
-        let mut first = Some(first);
-        let mut left = flush_len;
-        while left > 0 {
-            let mut buf = match first.take() {
-                Some(buf) => buf,
-                None => match self.free.recv() {
-                    Ok(buf) => buf,
-                    Err(_) => return,
-                },
-            };
-            let n = left.min(buf.len()).min(self.raw.len());
-            self.raw[..n].fill(Complex32::default());
-            guards.guard(&self.raw[..n], &mut buf[..n]);
-            left -= n;
-            let input = Input {
-                filled: Filled { buf, len: n },
-                retune: None,
-                flush: true,
-            };
-            if self.full.send(input).is_err() {
-                return;
-            }
-        }
     }
 }
 
@@ -400,20 +427,29 @@ impl FrontStage<'_> {
     }
 }
 
-/// The back half's thread: batches in, audio out; publishes the live figures.
-fn back_stage(
-    back: &mut dyn BackHalf,
-    control: &LiveControl,
+/// Whether a stage's loop goes on.
+enum Flow {
+    Go,
+    Stop,
+}
+
+/// The back half's work on batches: audio out, the live figures published.
+struct BackStage<'a> {
+    back: &'a mut dyn BackHalf,
+    control: &'a LiveControl,
     input_rate: f64,
-    full: Rx<Batch>,
+    tally: StatusTally,
     free: Tx<Batch>,
     free_out: Rx<Vec<f32>>,
     full_out: Tx<Filled<f32>>,
-) -> Result<()> {
-    let mut tally = StatusTally::default();
-    while let Ok(mut batch) = full.recv() {
-        let Ok(mut out) = free_out.recv() else {
-            return Ok(());
+}
+
+impl BackStage<'_> {
+    /// One batch through the back half; `Stop` once the writer has gone.
+    fn batch(&mut self, mut batch: Batch) -> Result<Flow> {
+        let back = &mut *self.back;
+        let Ok(mut out) = self.free_out.recv() else {
+            return Ok(Flow::Stop);
         };
         if let Some(step) = batch.retuned.take() {
             back.retuned(step);
@@ -439,25 +475,75 @@ fn back_stage(
             };
             produced += back.run_piece(&mut batch.channel[at..at + m], wide, &mut out[produced..]);
         }
-        tally.add(control, input_rate, batch.inputs, &out[..produced], || {
-            back.cnr_db()
-        });
+        self.tally.add(
+            self.control,
+            self.input_rate,
+            batch.inputs,
+            &out[..produced],
+            || back.cnr_db(),
+        );
         batch.lens.clear();
         batch.inputs = 0;
         batch.finish = false;
         // The front half may already have finished; a closed free channel is not an error.
-        let _ = free.send(batch);
-        if full_out
-            .send(Filled {
-                buf: out,
-                len: produced,
-            })
-            .is_err()
-        {
-            return Ok(());
+        let _ = self.free.send(batch);
+        let filled = Filled {
+            buf: out,
+            len: produced,
+        };
+        Ok(if self.full_out.send(filled).is_err() {
+            Flow::Stop
+        } else {
+            Flow::Go
+        })
+    }
+}
+
+/// The reader and the back half on one thread, the front half on the other core's: the
+/// reader (decoding and guards) and the back half together weigh about what the front half
+/// does (callgrind on the am command: 41.8 M + 38.1 M against 76.1 M), so two busy threads
+/// share two cores instead of three. Whichever has work goes: a free input buffer is read
+/// into, a batch of channel is taken through the back half. Returns the reader's outcome
+/// (samples read) and the back half's.
+fn edge_stage<Src>(
+    mut read: ReadStage<'_, Src>,
+    mut back: BackStage<'_>,
+    full_batches: Rx<Batch>,
+) -> (Result<u64>, Result<()>)
+where
+    Src: FnMut(&mut [Complex32]) -> Result<usize>,
+{
+    let mut read_result = Ok(());
+    loop {
+        let mut select = Select::new();
+        let reading = (read.reading != Reading::Done).then(|| select.recv(&read.free));
+        let backing = select.recv(&full_batches);
+        let op = select.select();
+        if Some(op.index()) == reading {
+            match op.recv(&read.free) {
+                Ok(buf) => {
+                    if let Err(e) = read.step(buf) {
+                        // The front half drains what it has; the error ends the run.
+                        read_result = Err(e);
+                        read.stop();
+                    }
+                }
+                Err(_) => read.stop(),
+            }
+            continue;
+        }
+        debug_assert_eq!(op.index(), backing);
+        let flow = match op.recv(&full_batches) {
+            // The front half has finished and everything it sent is through.
+            Err(_) => Ok(Flow::Stop),
+            Ok(batch) => back.batch(batch),
+        };
+        match flow {
+            Ok(Flow::Go) => {}
+            Ok(Flow::Stop) => return (read_result.map(|()| read.total), Ok(())),
+            Err(e) => return (read_result.map(|()| read.total), Err(e)),
         }
     }
-    Ok(())
 }
 
 #[cfg(test)]
@@ -611,6 +697,48 @@ mod tests {
         .unwrap();
         assert_eq!(rx.offset_hz(), -500.0);
         assert_eq!(control.status().offset_hz, Some(-500.0));
+    }
+
+    /// A source that fails part-way ends the run with its error, with the reader and the
+    /// back half on one thread (the front half drains what it was sent, nothing hangs).
+    #[test]
+    fn a_source_error_ends_the_run_with_that_error() {
+        let iq = recording();
+        for guards in [false, true] {
+            let mut config = ReceiverConfig::new(240_000.0, 20_000.0);
+            config.options.noise_blanker = guards;
+            let mut rx = build_receiver(Mode::Am, &config).unwrap();
+            let plan = SplitPlan {
+                flush_len: rx.flush_len(),
+                out_len: rx.max_output_len(1024).max(rx.flush_output_len()),
+                input_rate: 240_000.0,
+            };
+            let (front, back) = rx.halves().unwrap();
+            let mut read = source(&iq);
+            let mut calls = 0;
+            let result = run_split(
+                |buf: &mut [Complex32]| {
+                    calls += 1;
+                    if calls == 5 {
+                        return Err(Error::parameter("source", 5, "broke"));
+                    }
+                    read(buf)
+                },
+                front,
+                back,
+                |_: &[f32]| Ok(()),
+                RuntimeConfig {
+                    chunk: 1024,
+                    depth: 2,
+                },
+                plan,
+                &LiveControl::default(),
+            );
+            assert!(
+                matches!(&result, Err(Error::InvalidParameter { name, .. }) if *name == "source"),
+                "{result:?}"
+            );
+        }
     }
 
     #[test]
