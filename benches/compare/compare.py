@@ -141,8 +141,8 @@ def main():
         lines.append(f"| {name} | {med:.3f} | {' '.join(f'{t:.2f}' for t in runs)} | {cpu:.3f} | "
                      f"{a.seconds / med:.1f} | {samples / med / 1e6:.1f} |")
     lines += ["", f"amrx is **{np_med / amrx_med:.1f}×** the numpy/scipy chain's speed in wall-clock "
-              f"time and {np_cpu / amrx_cpu:.1f}× in CPU time (amrx runs reading, the receiver's two "
-              f"halves and writing on four threads) (strongest audio line: amrx {tone_hz[0]:.0f} Hz, numpy "
+              f"time and {np_cpu / amrx_cpu:.1f}× in CPU time (amrx reads and runs its receiver on "
+              f"two busy threads and writes on a third; the numpy chain runs on one) (strongest audio line: amrx {tone_hz[0]:.0f} Hz, numpy "
               f"{tone_hz[1]:.0f} Hz)."]
     text = "\n".join(lines)
     print(text)
