@@ -344,6 +344,7 @@ impl CarrierMeter {
     /// meter cost 150 instructions per sample).
     fn push_block(&mut self, wide: &[Complex32], envelope: Option<&[f32]>) {
         let n = wide.len();
+        let has_envelope = envelope.is_some();
         let lag = self.lag;
         if self.at + n > self.wide_line.len() {
             // Keep only the last `lag` samples (references are read at or after `at`).
@@ -353,20 +354,25 @@ impl CarrierMeter {
             self.at = lag;
         }
         let at = self.at;
-        for (i, &w) in wide.iter().enumerate() {
-            let e = envelope
-                .and_then(|e| e.get(i))
-                .copied()
-                .filter(|v| v.is_finite())
-                .unwrap_or(0.0);
-            let w = if w.re.is_finite() && w.im.is_finite() {
+        // Three passes over the block: the envelope and the wide view stored (non-finite as
+        // zero, loops that vectorise), then the running reference, sample by sample.
+        let envelope = envelope.unwrap_or(&[]);
+        let given = envelope.len().min(n);
+        let line = &mut self.envelope_line[at..at + n];
+        for (e, &v) in line.iter_mut().zip(&envelope[..given]) {
+            *e = if v.is_finite() { v } else { 0.0 };
+        }
+        line[given..].fill(0.0);
+        for (d, &w) in self.wide_line[at..at + n].iter_mut().zip(wide) {
+            *d = if w.re.is_finite() && w.im.is_finite() {
                 w
             } else {
                 Complex32::default()
             };
-            self.envelope_line[at + i] = e;
-            self.wide_line[at + i] = w;
-            self.references[at + i] = self.reference.next(f64::from(e));
+        }
+        let references = &mut self.references[at..at + n];
+        for (r, &e) in references.iter_mut().zip(&self.envelope_line[at..at + n]) {
+            *r = self.reference.next(f64::from(e));
         }
         // The reference at input `pushed + i` is centred on the sample `lag` pushes older, at
         // `at + i − lag` in the lines; the first `lag` inputs of the run complete none.
@@ -376,7 +382,7 @@ impl CarrierMeter {
         let mut i = first;
         while i < n {
             let take = (self.window_len - self.in_window).min(n - i);
-            self.meter_run(at + i - lag, at + i - lag + take, envelope.is_some());
+            self.meter_run(at + i - lag, at + i - lag + take, has_envelope);
             i += take;
         }
     }
@@ -391,17 +397,22 @@ impl CarrierMeter {
             let settling = (self.settings.settling_samples + self.lag) as u64;
             let settled = a + settling.saturating_sub(k).min((b - a) as u64) as usize;
             let lag = self.lag;
+            // Running figures in locals, so they stay in registers beside the pushes.
+            let (mut sum, mut low, mut high) =
+                (self.reference_sum, self.reference_min, self.reference_max);
+            let ratios = &mut self.ratios;
             for (&e, &reference) in self.envelope_line[settled..b]
                 .iter()
                 .zip(&self.references[settled + lag..b + lag])
             {
                 if reference > 0.0 {
-                    self.ratios.push((f64::from(e) / reference) as f32);
-                    self.reference_sum += reference;
-                    self.reference_min = self.reference_min.min(reference);
-                    self.reference_max = self.reference_max.max(reference);
+                    ratios.push((f64::from(e) / reference) as f32);
+                    sum += reference;
+                    low = low.min(reference);
+                    high = high.max(reference);
                 }
             }
+            (self.reference_sum, self.reference_min, self.reference_max) = (sum, low, high);
         }
         self.in_window += b - a;
         if self.in_window == self.window_len {
