@@ -10,6 +10,9 @@ use std::path::{Path, PathBuf};
 /// Capacity of the `BufReader` in front of every input; reads at least this large bypass it.
 pub(crate) const READER_CAPACITY: usize = 256 * 1024;
 
+/// Reads of at least this many bytes skip the `BufReader` when it holds nothing.
+const DIRECT_READ_BYTES: usize = 64 * 1024;
+
 /// Samples the byte buffer holds before a larger read asks it to grow.
 const INITIAL_SAMPLES: usize = 16 * 1024;
 
@@ -161,7 +164,16 @@ impl FrameReader {
             if let Some(limit) = self.byte_limit {
                 end = end.min(self.filled + usize::try_from(limit).unwrap_or(usize::MAX));
             }
-            let n = match self.reader.read(&mut self.bytes[self.filled..end]) {
+            let dst = &mut self.bytes[self.filled..end];
+            // A large read into an empty buffer goes straight to the input: through the
+            // `BufReader` a cu8 chunk (128 KiB, under its capacity) was copied once more
+            // (callgrind on the am command: 9.6 M instructions of memcpy in 2 s).
+            let read = if self.reader.buffer().is_empty() && dst.len() >= DIRECT_READ_BYTES {
+                self.reader.get_mut().read(dst)
+            } else {
+                self.reader.read(dst)
+            };
+            let n = match read {
                 Ok(n) => n,
                 Err(e) if e.kind() == ErrorKind::Interrupted => continue,
                 Err(e) => return Err(Error::io(&self.path, e)),

@@ -524,8 +524,8 @@ impl CarrierMeter {
         let n = self.ratios.len();
         let hi_at = (((1.0 - PEAK_TAIL) * (n - 1) as f64).round() as usize).min(n - 1);
         let lo_at = ((PEAK_TAIL * (n - 1) as f64).round() as usize).min(n - 1);
-        let hi = f64::from(*self.ratios.select_nth_unstable_by(hi_at, f32::total_cmp).1);
-        let lo = f64::from(*self.ratios.select_nth_unstable_by(lo_at, f32::total_cmp).1);
+        let (lo, hi) = tail_ranks(&mut self.ratios, lo_at, hi_at);
+        let (lo, hi) = (f64::from(lo), f64::from(hi));
         let sigma = (n0 * s.channel_noise_bandwidth_hz / 2.0 / carrier).sqrt();
         reading.positive = noise_corrected_peak(hi * scale - 1.0, sigma, PEAK_TAIL);
         let trough = lo * scale;
@@ -601,6 +601,61 @@ pub fn erfc(x: f64) -> f64 {
     } else {
         2.0 - r
     }
+}
+
+/// Most values [`tail_ranks`] keeps per tail; deeper tails go to a selection.
+const TAIL_MAX: usize = 64;
+
+/// The values at ranks `lo_at` and `hi_at` (0-based, ascending by `f32::total_cmp`; `lo_at` ≤
+/// `hi_at` < len): what `select_nth_unstable_by` would place there. For the meter's 1 % tails
+/// of a window the `lo_at + 1` smallest and the `len − hi_at` largest values are kept in two
+/// small sorted arrays, one comparison per value for most values (callgrind on the am command:
+/// two selections over each window cost 5.3 M instructions in 2 s); deeper tails are selected.
+fn tail_ranks(values: &mut [f32], lo_at: usize, hi_at: usize) -> (f32, f32) {
+    let (low_len, high_len) = (lo_at + 1, values.len() - hi_at);
+    if low_len > TAIL_MAX || high_len > TAIL_MAX {
+        let hi = *values.select_nth_unstable_by(hi_at, f32::total_cmp).1;
+        let lo = *values.select_nth_unstable_by(lo_at, f32::total_cmp).1;
+        return (lo, hi);
+    }
+    // low: the smallest so far, ascending; high: the largest so far, ascending.
+    let (mut low, mut high) = ([0.0f32; TAIL_MAX], [0.0f32; TAIL_MAX]);
+    let (mut lows, mut highs) = (0, 0);
+    for &v in values.iter() {
+        if lows < low_len || v.total_cmp(&low[lows - 1]).is_lt() {
+            // Insert in order; when full, the largest falls off the end.
+            let mut at = lows.min(low_len - 1);
+            while at > 0 && v.total_cmp(&low[at - 1]).is_lt() {
+                low[at] = low[at - 1];
+                at -= 1;
+            }
+            low[at] = v;
+            lows = (lows + 1).min(low_len);
+        }
+        if highs < high_len || v.total_cmp(&high[0]).is_gt() {
+            // Insert in order; when full, the smallest falls off the start.
+            let mut at = if highs < high_len {
+                // Make room at the end.
+                highs
+            } else {
+                0
+            };
+            if highs < high_len {
+                while at > 0 && v.total_cmp(&high[at - 1]).is_lt() {
+                    high[at] = high[at - 1];
+                    at -= 1;
+                }
+            } else {
+                while at + 1 < high_len && v.total_cmp(&high[at + 1]).is_gt() {
+                    high[at] = high[at + 1];
+                    at += 1;
+                }
+            }
+            high[at] = v;
+            highs = (highs + 1).min(high_len);
+        }
+    }
+    (low[low_len - 1], high[0])
 }
 
 /// Points over half a modulation cycle in the noise model.
@@ -841,6 +896,26 @@ mod tests {
                 (got - low).abs() < 1e-9,
                 "{reading} {sigma}: {got} vs {low}"
             );
+        }
+    }
+
+    /// The tails kept in small arrays give the ranks a selection gives, on random values with
+    /// ties, rising and falling runs, tails of one value and tails too deep for the arrays.
+    #[test]
+    fn tail_ranks_are_the_selected_ranks() {
+        let mut rng = StdRng::seed_from_u64(5);
+        let normal = Normal::new(1.0f32, 0.3).unwrap();
+        let random: Vec<f32> = (0..4800).map(|_| normal.sample(&mut rng)).collect();
+        let ties: Vec<f32> = random.iter().map(|v| (v * 8.0).round() / 8.0).collect();
+        let rising: Vec<f32> = (0..4800).map(|i| i as f32 * 1e-3).collect();
+        let falling: Vec<f32> = rising.iter().rev().copied().collect();
+        for values in [random, ties, rising, falling] {
+            for (lo_at, hi_at) in [(48, 4751), (0, 4799), (0, 0), (63, 4736), (200, 4500)] {
+                let mut sorted = values.clone();
+                sorted.sort_by(f32::total_cmp);
+                let got = tail_ranks(&mut values.clone(), lo_at, hi_at);
+                assert_eq!(got, (sorted[lo_at], sorted[hi_at]), "{lo_at} {hi_at}");
+            }
         }
     }
 
