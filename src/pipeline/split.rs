@@ -11,8 +11,9 @@
 //! The front half's guards ([`FrontHalf::split_guards`]) run on the reader's thread, which
 //! otherwise only decodes, and the back half runs there too (`edge_stage` takes whichever
 //! has work): callgrind on the am command (2 s of cu8 at 2.4 MS/s) counted reading and guards
-//! at 41.8 M instructions and the back half at 38.1 M, against the front end's 76.1 M, so the
-//! two busy threads weigh about the same and each can keep a core (with the reader, the front
+//! at 41.8 M instructions and the back half at 38.1 M, against the front end's 76.1 M, when
+//! this was built (67.5 M together against 71.9 M since), so the two busy threads weigh about
+//! the same and each can keep a core (with the reader, the front
 //! half and the back half on three threads, the two cores were time-sliced among them:
 //! twice the involuntary context switches, 5–9 % more wall time in alternated runs).
 //! Retunes are taken by the reader, so guards and front end move at the same buffer's start.
