@@ -41,6 +41,20 @@ impl<T: Sample> History<T> {
         self.buf.len() - self.len
     }
 
+    /// How many of `available` inputs a filter that outputs every `factor`-th input may push
+    /// next: what fits the room and the `slots` outputs left, the next output being due
+    /// `until_output` (≥ 1) inputs on; with no slot left, just short of the due input.
+    pub(crate) fn run_len(
+        &mut self,
+        until_output: usize,
+        slots: usize,
+        factor: usize,
+        available: usize,
+    ) -> usize {
+        let fits = (until_output - 1).saturating_add(slots.saturating_mul(factor));
+        fits.min(self.make_room()).min(available)
+    }
+
     /// Appends `input` (at most `make_room()` samples). Non-finite samples are stored as zero so
     /// that one bad input cannot poison the output.
     pub(crate) fn push(&mut self, input: &[T]) {

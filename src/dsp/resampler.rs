@@ -145,12 +145,11 @@ impl<T: Sample> RationalResampler<T> {
         }
         let mut consumed = 0;
         while consumed < input.len() {
-            // Inputs that fit the output: the next due one needs a slot, each further slot
-            // takes M more; with no slot left, stop just before the due sample.
             let slots = output.len() - produced;
-            let fits = (self.until_output - 1).saturating_add(slots.saturating_mul(self.down));
-            let room = self.history.make_room();
-            let take = fits.min(room).min(input.len() - consumed);
+            let left = input.len() - consumed;
+            let take = self
+                .history
+                .run_len(self.until_output, slots, self.down, left);
             if take == 0 {
                 break;
             }
