@@ -217,13 +217,7 @@ pub fn run_demod_live(
         sink.write(kept)
     };
     let two_halves = !request.one_thread && live_input.is_none() && request.play.is_none();
-    let plan = SplitPlan {
-        flush_len: receiver.flush_len(),
-        out_len: receiver
-            .max_output_len(runtime.chunk)
-            .max(receiver.flush_output_len()),
-        input_rate,
-    };
+    let plan = SplitPlan::for_receiver(receiver.as_ref(), runtime.chunk, input_rate);
     let totals = match receiver.halves().filter(|_| two_halves) {
         Some((front, back)) => run_split(read, front, back, write, runtime, plan, control)?,
         None => run_stream(

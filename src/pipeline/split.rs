@@ -1,5 +1,5 @@
 //! One stream on two cores: the receive job's runtime with the receiver cut in two
-//! ([`Receiver::halves`](crate::demod::Receiver::halves)). Three threads joined by bounded
+//! ([`Receiver::halves`]). Three threads joined by bounded
 //! crossbeam channels carrying recycled buffers, two of them busy:
 //!
 //! ```text
@@ -27,7 +27,7 @@
 use super::live::{LiveControl, StatusTally};
 use super::runtime::{joined, pool, write_stage, Filled, RunTotals, RuntimeConfig};
 use crate::block::{FLUSH_PIECE, PIECE};
-use crate::demod::{BackHalf, FrontHalf, GuardHalf};
+use crate::demod::{BackHalf, FrontHalf, GuardHalf, Receiver};
 use crate::{Complex32, Error, Result};
 use crossbeam_channel::{bounded, Receiver as Rx, Select, Sender as Tx};
 use std::thread;
@@ -42,6 +42,19 @@ pub struct SplitPlan {
     pub out_len: usize,
     /// Input sample rate in Hz (for the live figures' half-second period).
     pub input_rate: f64,
+}
+
+impl SplitPlan {
+    /// The plan for `receiver` read in buffers of `chunk` samples at `input_rate`.
+    pub fn for_receiver(receiver: &dyn Receiver, chunk: usize, input_rate: f64) -> Self {
+        SplitPlan {
+            flush_len: receiver.flush_len(),
+            out_len: receiver
+                .max_output_len(chunk)
+                .max(receiver.flush_output_len()),
+            input_rate,
+        }
+    }
 }
 
 /// A buffer of IQ handed from the reader to the front half.
@@ -550,7 +563,6 @@ where
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::block::Block;
     use crate::demod::{build_receiver, Mode, Receiver, ReceiverConfig};
     use crate::dsp::ComplexNoise;
     use crate::pipeline::runtime::run_stream;
@@ -601,11 +613,7 @@ mod tests {
 
     fn two_halves(mode: Mode, iq: &[Complex32], config: RuntimeConfig) -> (Vec<f32>, String) {
         let mut rx = receiver(mode);
-        let plan = SplitPlan {
-            flush_len: rx.flush_len(),
-            out_len: rx.max_output_len(config.chunk).max(rx.flush_output_len()),
-            input_rate: 240_000.0,
-        };
+        let plan = SplitPlan::for_receiver(rx.as_ref(), config.chunk, 240_000.0);
         let mut audio = Vec::new();
         let control = LiveControl::default();
         let (front, back) = rx.halves().unwrap();
@@ -663,11 +671,7 @@ mod tests {
         let mut rx = receiver(Mode::Sam);
         let control = LiveControl::default();
         control.retune(-1e9);
-        let plan = SplitPlan {
-            flush_len: rx.flush_len(),
-            out_len: rx.max_output_len(4096).max(rx.flush_output_len()),
-            input_rate: 240_000.0,
-        };
+        let plan = SplitPlan::for_receiver(rx.as_ref(), 4096, 240_000.0);
         let (front, back) = rx.halves().unwrap();
         let config = RuntimeConfig {
             chunk: 4096,
@@ -709,11 +713,7 @@ mod tests {
             let mut config = ReceiverConfig::new(240_000.0, 20_000.0);
             config.options.noise_blanker = guards;
             let mut rx = build_receiver(Mode::Am, &config).unwrap();
-            let plan = SplitPlan {
-                flush_len: rx.flush_len(),
-                out_len: rx.max_output_len(1024).max(rx.flush_output_len()),
-                input_rate: 240_000.0,
-            };
+            let plan = SplitPlan::for_receiver(rx.as_ref(), 1024, 240_000.0);
             let (front, back) = rx.halves().unwrap();
             let mut read = source(&iq);
             let mut calls = 0;
@@ -746,11 +746,7 @@ mod tests {
     fn a_sink_error_ends_the_run_with_that_error() {
         let iq = recording();
         let mut rx = receiver(Mode::Am);
-        let plan = SplitPlan {
-            flush_len: rx.flush_len(),
-            out_len: rx.max_output_len(1024).max(rx.flush_output_len()),
-            input_rate: 240_000.0,
-        };
+        let plan = SplitPlan::for_receiver(rx.as_ref(), 1024, 240_000.0);
         let (front, back) = rx.halves().unwrap();
         let mut calls = 0;
         let result = run_split(
