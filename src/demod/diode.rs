@@ -209,13 +209,29 @@ impl DiodeDetector {
     }
 
     /// Puts the interpolated channel on the IF and runs the diode and RC over it, in place
-    /// into `passband`; returns the capacitor voltages written.
+    /// into `passband`; returns the capacitor voltages written. The IF signal is formed first,
+    /// a carrier cycle at a time (no index arithmetic per sample, so it vectorises), then the
+    /// recursion runs over it.
     fn rectify(&mut self, n: usize) -> usize {
-        for (v, z) in self.passband[..n].iter_mut().zip(&self.upsampled[..n]) {
-            let c = self.carrier[self.carrier_index];
-            self.carrier_index = (self.carrier_index + 1) % self.carrier.len();
-            let x = z.re * c.re - z.im * c.im;
-            self.voltage = diode_step(x, self.voltage, self.discharge);
+        let (passband, upsampled) = (&mut self.passband[..n], &self.upsampled[..n]);
+        let mut done = 0;
+        while done < n {
+            let k = self.carrier_index;
+            let len = (self.carrier.len() - k).min(n - done);
+            let carrier = &self.carrier[k..k + len];
+            let span = done..done + len;
+            for ((v, z), c) in passband[span.clone()]
+                .iter_mut()
+                .zip(&upsampled[span])
+                .zip(carrier)
+            {
+                *v = z.re * c.re - z.im * c.im;
+            }
+            done += len;
+            self.carrier_index = (k + len) % self.carrier.len();
+        }
+        for v in passband.iter_mut() {
+            self.voltage = diode_step(*v, self.voltage, self.discharge);
             *v = self.voltage;
         }
         n

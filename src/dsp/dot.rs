@@ -299,7 +299,7 @@ fn lane_sums(h: &[f32], x: &[f32]) -> ([f32; LANES], usize) {
 /// Whether the AVX2 + FMA kernel can run here.
 #[cfg(target_arch = "x86_64")]
 #[inline(always)]
-fn fma_available() -> bool {
+pub(crate) fn fma_available() -> bool {
     std::arch::is_x86_feature_detected!("avx2") && std::arch::is_x86_feature_detected!("fma")
 }
 

@@ -16,6 +16,7 @@ pub mod line_canceller;
 pub mod mixer;
 pub mod nco;
 pub mod noise;
+mod phase_bank;
 pub mod planner;
 pub mod resampler;
 pub mod rotator;
