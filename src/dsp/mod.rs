@@ -17,6 +17,7 @@ pub mod mixer;
 pub mod nco;
 pub mod noise;
 mod phase_bank;
+pub(crate) mod phasor;
 pub mod planner;
 pub mod resampler;
 pub mod rotator;

@@ -2,9 +2,9 @@
 //! complex line), or a carrier with one sideband line (VSB with the tone above the vestige),
 //! at complex baseband with the carrier at an offset.
 
+use crate::dsp::phasor::Phasor;
 use crate::synth::AmToneTransmitter;
 use crate::{Complex32, Error, Result};
-use std::f64::consts::TAU;
 
 /// Which tone-modulated signal a detector is fed.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -120,7 +120,8 @@ impl ToneSource {
                 let (mut c, mut t) = (Phasor::at(*carrier_step, *n), Phasor::at(*tone_step, *n));
                 for s in out.iter_mut() {
                     // A_c·e^{jω_c t}·(1 + (μ/2)·e^{jω_m t}).
-                    let line = (1.0 + *mu / 2.0 * t.cos, *mu / 2.0 * t.sin);
+                    let (tc, ts) = t.value();
+                    let line = (1.0 + *mu / 2.0 * tc, *mu / 2.0 * ts);
                     let (re, im) = times(c.value(), line);
                     *s = Complex32::new((*carrier * re) as f32, (*carrier * im) as f32);
                     c.advance();
@@ -138,10 +139,11 @@ impl ToneSource {
                 let (mut c, mut t) = (Phasor::at(*carrier_step, *n), Phasor::at(*tone_step, *n));
                 let a = *amplitude;
                 for s in out.iter_mut() {
+                    let ((cc, cs), (tc, ts)) = (c.value(), t.value());
                     let (re, im) = match kind {
-                        TestSignal::SuppressedCarrier => (a * t.cos * c.cos, a * t.cos * c.sin),
-                        TestSignal::UpperSideband => times(c.value(), (a * t.cos, a * t.sin)),
-                        _ => times(c.value(), (a * t.cos, -a * t.sin)),
+                        TestSignal::SuppressedCarrier => (a * tc * cc, a * tc * cs),
+                        TestSignal::UpperSideband => times((cc, cs), (a * tc, a * ts)),
+                        _ => times((cc, cs), (a * tc, -a * ts)),
                     };
                     *s = Complex32::new(re as f32, im as f32);
                     c.advance();
@@ -159,82 +161,18 @@ fn times((a, b): (f64, f64), (c, d): (f64, f64)) -> (f64, f64) {
     (a * c - b * d, a * d + b * c)
 }
 
-/// Samples between the exact restarts of a [`Phasor`].
-const ANCHOR: u64 = 1024;
-
-/// e^{j2π·step·k} for k = n, n + 1, …: exact at every multiple of [`ANCHOR`] (`sin_cos` of the
-/// phase in cycles reduced to [0, 1)) and a rotation by e^{j2π·step} between, so a value
-/// depends on k alone, not on where a fill started, and the recurrence's rounding stays near
-/// ANCHOR·2⁻⁵³ ≈ 10⁻¹³, far below the f32 the samples are stored in (common practice, no
-/// source). Callgrind on one point of a lab sweep: the library's `sin_cos` per sample was a
-/// tenth of the instructions.
-struct Phasor {
-    step: f64,
-    rotation: (f64, f64),
-    k: u64,
-    cos: f64,
-    sin: f64,
-}
-
-impl Phasor {
-    /// The phasor at index `k`: exact at the anchor at or before it, rotated forward.
-    fn at(step: f64, k: u64) -> Self {
-        let (s, c) = (TAU * step).sin_cos();
-        let mut p = Phasor {
-            step,
-            rotation: (c, s),
-            k: k - k % ANCHOR,
-            cos: 0.0,
-            sin: 0.0,
-        };
-        p.restart();
-        while p.k < k {
-            p.advance();
-        }
-        p
-    }
-
-    fn restart(&mut self) {
-        let (s, c) = (TAU * (self.k as f64 * self.step).fract()).sin_cos();
-        (self.cos, self.sin) = (c, s);
-    }
-
-    fn value(&self) -> (f64, f64) {
-        (self.cos, self.sin)
-    }
-
-    fn advance(&mut self) {
-        self.k += 1;
-        if self.k % ANCHOR == 0 {
-            self.restart();
-        } else {
-            (self.cos, self.sin) = times(self.value(), self.rotation);
-        }
-    }
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
+    use std::f64::consts::TAU;
 
     fn mean_power(x: &[Complex32]) -> f64 {
         x.iter().map(|z| f64::from(z.norm_sqr())).sum::<f64>() / x.len() as f64
     }
 
-    /// The phasor against the exact exponential (within 1e-12, far below f32), and fills cut
-    /// anywhere give the samples of one fill.
+    /// Fills cut anywhere give the samples of one fill.
     #[test]
-    fn phasors_are_exact_and_fills_do_not_depend_on_their_cuts() {
-        let step = 1234.567 / 96_000.0;
-        let mut p = Phasor::at(step, 0);
-        for k in 0..5_000u64 {
-            let (s, c) = (TAU * (k as f64 * step).fract()).sin_cos();
-            assert!(
-                (p.cos - c).abs() < 1e-12 && (p.sin - s).abs() < 1e-12,
-                "sample {k}"
-            );
-            p.advance();
-        }
+    fn fills_do_not_depend_on_their_cuts() {
         for kind in [
             TestSignal::SuppressedCarrier,
             TestSignal::UpperSideband,

@@ -4,6 +4,7 @@
 //! amplitude, μ = k_a·A_m modulation index, f_m tone frequency; here at complex baseband with the
 //! carrier at offset f_c from the recording centre.
 
+use crate::dsp::phasor::Phasor;
 use crate::{Complex32, Error, Result};
 
 /// A full-carrier AM transmitter modulated by one tone, at complex baseband.
@@ -11,16 +12,18 @@ use crate::{Complex32, Error, Result};
 /// Sample n is `A_c·(1 + μ·cos(2π f_m n/fs))·e^{j2π f_c n/fs}`, the formula as written for every
 /// μ ≥ 0: above μ = 1 the amplitude factor goes negative for part of each cycle, so the envelope
 /// |1 + μ cos| folds back up through zero (overmodulation) and the carrier phase flips by π there.
-/// Phases are kept in f64 cycles and advanced per sample, so the output is the same however it is
-/// split between [`fill`](Self::fill) calls.
+/// The tone and carrier are f64 phasors exact at every 1024th sample and rotated between, so
+/// sample n depends on n alone, not on how the output is split between [`fill`](Self::fill)
+/// calls. Callgrind on one point of a lab sweep: a `cos` and a `sin_cos` per sample were a
+/// fifth of the instructions.
 #[derive(Debug, Clone)]
 pub struct AmToneTransmitter {
     carrier_amplitude: f64,
     mu: f64,
     tone_step: f64,
     carrier_step: f64,
-    tone_phase: f64,
-    carrier_phase: f64,
+    tone: Phasor,
+    carrier: Phasor,
 }
 
 fn finite(name: &'static str, value: f64) -> Result<f64> {
@@ -84,8 +87,8 @@ impl AmToneTransmitter {
             mu,
             tone_step: tone / fs,
             carrier_step: offset / fs,
-            tone_phase: 0.0,
-            carrier_phase: 0.0,
+            tone: Phasor::at(tone / fs, 0),
+            carrier: Phasor::at(offset / fs, 0),
         })
     }
 
@@ -118,27 +121,20 @@ impl AmToneTransmitter {
 
     /// Fills `out` with the next samples.
     pub fn fill(&mut self, out: &mut [Complex32]) {
-        use std::f64::consts::TAU;
         for s in out.iter_mut() {
-            let amplitude =
-                self.carrier_amplitude * (1.0 + self.mu * (TAU * self.tone_phase).cos());
-            let (sin, cos) = (TAU * self.carrier_phase).sin_cos();
+            let amplitude = self.carrier_amplitude * (1.0 + self.mu * self.tone.value().0);
+            let (cos, sin) = self.carrier.value();
             *s = Complex32::new((amplitude * cos) as f32, (amplitude * sin) as f32);
-            self.tone_phase = wrap(self.tone_phase + self.tone_step);
-            self.carrier_phase = wrap(self.carrier_phase + self.carrier_step);
+            self.tone.advance();
+            self.carrier.advance();
         }
     }
 
     /// Restarts at sample 0.
     pub fn reset(&mut self) {
-        self.tone_phase = 0.0;
-        self.carrier_phase = 0.0;
+        self.tone = Phasor::at(self.tone_step, 0);
+        self.carrier = Phasor::at(self.carrier_step, 0);
     }
-}
-
-/// Wraps a phase in cycles to [0, 1) so its precision does not decay over long runs.
-fn wrap(phase: f64) -> f64 {
-    phase - phase.floor()
 }
 
 #[cfg(test)]
