@@ -97,20 +97,18 @@ impl<T: Sample> FirDecimator<T> {
             consumed += take;
             let stop = start + take;
             let mut end = start + self.until_output;
-            // Four due outputs at a time share each tap load (`Taps::dot_many`; an output is
-            // the same alone or in a group, so chunking cannot change it).
+            // Every output due inside the run, from one call (`Taps::dots_strided`: an
+            // output is the same in any run, so chunking cannot change it).
             let m = self.factor;
-            while end + 3 * m <= stop {
-                let four: [T; 4] = self.taps.dot_many(self.history.windows(end, 3 * m), m);
-                output[produced..produced + 4].copy_from_slice(&four);
-                produced += 4;
-                end += 4 * m;
-            }
-            while end <= stop {
-                let [one] = self.taps.dot_many(self.history.windows(end, 0), m);
-                output[produced] = one;
-                produced += 1;
-                end += m;
+            if end <= stop {
+                let count = (stop - end) / m + 1;
+                self.taps.dots_strided(
+                    self.history.windows(end, (count - 1) * m),
+                    m,
+                    &mut output[produced..produced + count],
+                );
+                produced += count;
+                end += count * m;
             }
             self.until_output = end - stop;
         }

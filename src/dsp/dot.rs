@@ -51,7 +51,7 @@ impl Taps {
 
 impl Taps {
     /// Taps `h[0..N]` followed by zeros up to a multiple of four taps, so that a complex window
-    /// is whole chunks of eight `f32` lanes and [`Taps::dot_many`] has no tail. The zero taps
+    /// is whole chunks of eight `f32` lanes and [`Taps::dots_strided`] has no tail. The zero taps
     /// lengthen the window (callers size their history by [`Taps::len`]) and add exact zeros.
     pub(crate) fn padded(taps: &[f32]) -> Self {
         let mut h = taps.to_vec();
@@ -59,22 +59,35 @@ impl Taps {
         Taps::new(&h)
     }
 
-    /// `K` filter outputs at once: output j is the dot product over window
-    /// `x[j·stride .. j·stride + len()]` (the windows of `K` successive outputs of a decimator
-    /// by `stride`). Complex windows with padded taps share each tap load among the `K`
-    /// outputs and reduce each output's lanes in the same order whatever `K` is, so an output
-    /// is the same bit for bit whether it is computed alone or in a group; other types fall
-    /// back to [`Taps::dot`] per window.
+    /// Filter outputs at windows `stride` samples apart: `out[j]` is the dot product over
+    /// `x[j·stride .. j·stride + len()]` (the outputs of a decimator by `stride` due in one run;
+    /// `x` holds `(out.len() − 1)·stride + len()` samples). Complex windows with padded taps go
+    /// four at a time through one kernel call (each tap load shared among the four; the CPU
+    /// feature test and the call made once per run, not per group), each output's lanes reduced
+    /// in the same order whichever group it falls in, so an output is the same bit for bit
+    /// whatever run it is computed in; other types fall back to [`Taps::dot`] per window.
     #[inline(always)]
-    pub(crate) fn dot_many<T: Sample, const K: usize>(&self, x: &[T], stride: usize) -> [T; K] {
-        if let Some(xc) = same_type_slice::<T, Complex32>(x) {
-            if self.reversed_pairs.len() % LANES == 0 {
-                let out = complex_dots::<K>(&self.reversed_pairs, xc, stride);
-                return std::array::from_fn(|j| same_type_value(out[j]));
-            }
+    pub(crate) fn dots_strided<T: Sample>(&self, x: &[T], stride: usize, out: &mut [T]) {
+        if out.is_empty() {
+            return;
         }
         let n = self.len();
-        std::array::from_fn(|j| self.dot(&x[j * stride..j * stride + n]))
+        assert!(
+            x.len() >= (out.len() - 1) * stride + n,
+            "windows past the end of the input"
+        );
+        if let (Some(xc), Some(oc)) = (
+            same_type_slice::<T, Complex32>(x),
+            same_type_slice_mut::<T, Complex32>(out),
+        ) {
+            if self.reversed_pairs.len() % LANES == 0 {
+                complex_dots_run(&self.reversed_pairs, xc, stride, oc);
+                return;
+            }
+        }
+        for (j, o) in out.iter_mut().enumerate() {
+            *o = self.dot(&x[j * stride..j * stride + n]);
+        }
     }
 }
 
@@ -158,25 +171,57 @@ fn fir_run_kernel<const FUSED: bool>(h: &[f32], x: &[f32], out: &mut [f32]) {
     }
 }
 
-/// [`Taps::dot_many`]'s complex kernel: fused multiply-adds where the CPU has them (checked at
-/// run time, as for [`lane_sums`]), the portable twin otherwise.
+/// [`Taps::dots_strided`]'s complex kernel: fused multiply-adds where the CPU has them (checked
+/// at run time, as for [`lane_sums`]), the portable twin otherwise.
 #[inline(always)]
-fn complex_dots<const K: usize>(pairs: &[f32], x: &[Complex32], stride: usize) -> [Complex32; K] {
+fn complex_dots_run(pairs: &[f32], x: &[Complex32], stride: usize, out: &mut [Complex32]) {
     #[cfg(target_arch = "x86_64")]
     if fma_available() {
         // SAFETY: the CPU has AVX2 and FMA (checked just above).
-        return unsafe { complex_dots_fma::<K>(pairs, x, stride) };
+        unsafe { complex_dots_run_fma(pairs, x, stride, out) };
+        return;
     }
-    complex_dots_kernel::<K, false>(pairs, x, stride)
+    let mut j = 0;
+    while j + 4 <= out.len() {
+        let four = complex_dots_kernel::<4, false>(pairs, &x[j * stride..], stride);
+        out[j..j + 4].copy_from_slice(&four);
+        j += 4;
+    }
+    for (j, o) in out.iter_mut().enumerate().skip(j) {
+        [*o] = complex_dots_kernel::<1, false>(pairs, &x[j * stride..], stride);
+    }
 }
 
-/// [`complex_dots_kernel`] with fused multiply-adds, written with AVX2 intrinsics: the
+/// Groups of four outputs, then one at a time, through [`complex_dots_fma`].
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2,fma")]
+unsafe fn complex_dots_run_fma(
+    pairs: &[f32],
+    x: &[Complex32],
+    stride: usize,
+    out: &mut [Complex32],
+) {
+    let mut j = 0;
+    while j + 4 <= out.len() {
+        // SAFETY: AVX2 and FMA are enabled here; the windows are inside x (the kernel asserts).
+        let four = unsafe { complex_dots_fma::<4>(pairs, &x[j * stride..], stride) };
+        out[j..j + 4].copy_from_slice(&four);
+        j += 4;
+    }
+    for (j, o) in out.iter_mut().enumerate().skip(j) {
+        // SAFETY: as above, for one window.
+        [*o] = unsafe { complex_dots_fma::<1>(pairs, &x[j * stride..], stride) };
+    }
+}
+
+/// The grouped kernel with fused multiply-adds, written with AVX2 intrinsics: the
 /// compiler, left to itself, vectorises the portable kernel across the `K` windows (a gather
 /// of scattered pairs per tap; callgrind on the am command: no gain over one window at a time)
 /// instead of along each window. Same operations in the same order per output as
 /// `complex_dots_kernel::<K, true>`, so the same values.
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx2,fma")]
+#[inline]
 unsafe fn complex_dots_fma<const K: usize>(
     pairs: &[f32],
     x: &[Complex32],
@@ -412,9 +457,12 @@ mod tests {
             let taps = Taps::padded(&h);
             let span = taps.len();
             for stride in [1, 5, 10] {
-                let four: [Complex32; 4] = taps.dot_many(&x[3..], stride);
-                for (j, got) in four.iter().enumerate() {
-                    let one: [Complex32; 1] = taps.dot_many(&x[3 + j * stride..], stride);
+                // Seven outputs in one run: a group of four and three single ones.
+                let mut seven = [Complex32::default(); 7];
+                taps.dots_strided(&x[3..], stride, &mut seven);
+                for (j, got) in seven.iter().enumerate() {
+                    let mut one = [Complex32::default()];
+                    taps.dots_strided(&x[3 + j * stride..], stride, &mut one);
                     assert_eq!(one[0], *got, "n={n} stride={stride} j={j}");
                     let w = &x[3 + j * stride..3 + j * stride + span];
                     let portable =

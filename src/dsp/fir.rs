@@ -65,24 +65,13 @@ impl<T: Sample> Block for Fir<T> {
             let take = self.history.make_room().min(n - done);
             let start = self.history.len();
             self.history.push(&input[done..done + take]);
-            // Four outputs at a time share each tap load (`Taps::dot_many`: an output is the
-            // same alone or in a group, so chunking cannot change it).
-            let out = &mut output[done..done + take];
-            let mut i = 0;
-            while i + 4 <= take {
-                let four: [T; 4] = self
-                    .taps
-                    .dot_many(self.history.windows(start + i + 1, 3), 1);
-                out[i..i + 4].copy_from_slice(&four);
-                i += 4;
-            }
-            while i < take {
-                let [one] = self
-                    .taps
-                    .dot_many(self.history.windows(start + i + 1, 0), 1);
-                out[i] = one;
-                i += 1;
-            }
+            // The run's outputs from one call (`Taps::dots_strided`: an output is the same in
+            // any run, so chunking cannot change it).
+            self.taps.dots_strided(
+                self.history.windows(start + 1, take - 1),
+                1,
+                &mut output[done..done + take],
+            );
             done += take;
         }
         (n, n)
