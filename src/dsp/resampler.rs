@@ -499,6 +499,19 @@ mod tests {
         assert!(make().set_step_trim(f64::NAN).is_err());
     }
 
+    /// `x` in pieces of 1000 through `r`, the trim set to `trims[k]` before piece k.
+    fn run_with_trims(mut r: RationalResampler<f32>, x: &[f32], trims: &[f64]) -> Vec<f32> {
+        let mut out = Vec::new();
+        for (piece, &trim) in x.chunks(1_000).zip(trims) {
+            r.set_step_trim(trim).unwrap();
+            let mut y = vec![0.0; r.max_output_len(piece.len())];
+            let (used, n) = r.process(piece, &mut y);
+            assert_eq!(used, piece.len());
+            out.extend_from_slice(&y[..n]);
+        }
+        out
+    }
+
     /// A 1/M resampler whose trim is switched on and back off moves between the fixed-ratio
     /// path and the general loop without losing or repeating a sample: outputs before the
     /// switch are the untrimmed ones, and a trim of zero set later changes nothing.
@@ -506,18 +519,8 @@ mod tests {
     fn trim_switched_on_and_off_at_one_over_m() {
         let taps = random_real(23, 16);
         let x = random_real(4_000, 17);
-        let run = |trims: &[f64]| {
-            let mut r = RationalResampler::<f32>::new(1, 2, &taps).unwrap();
-            let mut out = Vec::new();
-            for (piece, &trim) in x.chunks(1_000).zip(trims) {
-                r.set_step_trim(trim).unwrap();
-                let mut y = vec![0.0; r.max_output_len(piece.len())];
-                let (used, n) = r.process(piece, &mut y);
-                assert_eq!(used, piece.len());
-                out.extend_from_slice(&y[..n]);
-            }
-            out
-        };
+        let run =
+            |trims: &[f64]| run_with_trims(RationalResampler::new(1, 2, &taps).unwrap(), &x, trims);
         let plain = run(&[0.0; 4]);
         let switched = run(&[0.0, 0.5, 0.0, 0.0]);
         assert_eq!(plain.len(), 2_000);
@@ -538,18 +541,8 @@ mod tests {
     fn trim_switched_on_and_off_when_interpolating() {
         let taps = random_real(40, 18);
         let x = random_real(4_000, 19);
-        let run = |trims: &[f64]| {
-            let mut r = RationalResampler::<f32>::new(4, 1, &taps).unwrap();
-            let mut out = Vec::new();
-            for (piece, &trim) in x.chunks(1_000).zip(trims) {
-                r.set_step_trim(trim).unwrap();
-                let mut y = vec![0.0; r.max_output_len(piece.len())];
-                let (used, n) = r.process(piece, &mut y);
-                assert_eq!(used, piece.len());
-                out.extend_from_slice(&y[..n]);
-            }
-            out
-        };
+        let run =
+            |trims: &[f64]| run_with_trims(RationalResampler::new(4, 1, &taps).unwrap(), &x, trims);
         let plain = run(&[0.0; 4]);
         let switched = run(&[0.0, 0.25, 0.0, 0.0]);
         assert_eq!(plain.len(), 16_000);
