@@ -172,6 +172,8 @@ impl Bounds {
 #[derive(Debug, Clone)]
 pub struct ImpulseBlanker {
     threshold_log2: f64,
+    /// 2^−threshold and 2^threshold (power ratios), so a block's bounds need one `exp2`.
+    threshold_ratios: (f64, f64),
     /// `floor` squared: powers at or below it are never impulses.
     floor_power: f64,
     alpha: f64,
@@ -238,6 +240,10 @@ impl ImpulseBlanker {
         Ok(ImpulseBlanker {
             // |x|² over level² in log2: dB/10·log2(10).
             threshold_log2: t / 10.0 * std::f64::consts::LOG2_10,
+            threshold_ratios: (
+                (-t / 10.0 * std::f64::consts::LOG2_10).exp2(),
+                (t / 10.0 * std::f64::consts::LOG2_10).exp2(),
+            ),
             floor_power: settings.floor.max(0.0).powi(2),
             alpha,
             pre,
@@ -298,13 +304,16 @@ impl ImpulseBlanker {
             self.bounds = Bounds::NONE;
             return;
         };
-        let t = self.threshold_log2;
-        let impulse_power = (level + t).exp2();
+        // 2^(level ± t) as 2^level·2^±t: one `exp2` per block instead of three (callgrind on
+        // the am command: 56 k calls, 2.3 M instructions in 2 s); within an ulp or two of f64.
+        let level_power = level.exp2();
+        let (below, above) = self.threshold_ratios;
+        let impulse_power = level_power * above;
         self.bounds = Bounds {
-            low: ((level - t).exp2() as f32).max(f32::MIN_POSITIVE),
+            low: ((level_power * below) as f32).max(f32::MIN_POSITIVE),
             high: impulse_power.min(f32::MAX as f64) as f32,
             impulse_power,
-            level_power: level.exp2(),
+            level_power,
         };
     }
 

@@ -55,10 +55,23 @@ pub fn find_carrier(
     centre_hz: f64,
     search_hz: f64,
 ) -> Option<CarrierPeak> {
+    if spectrum.frames() == 0 {
+        return None;
+    }
+    find_carrier_in(spectrum, &spectrum.density(), centre_hz, search_hz)
+}
+
+/// [`find_carrier`] on `density`, the spectrum's [`PowerSpectrum::density`] read by the caller
+/// (a meter reads it once per window into a buffer of its own, allocating nothing).
+pub(crate) fn find_carrier_in(
+    spectrum: &PowerSpectrum,
+    density: &[f64],
+    centre_hz: f64,
+    search_hz: f64,
+) -> Option<CarrierPeak> {
     if spectrum.frames() == 0 || !centre_hz.is_finite() || !search_hz.is_finite() {
         return None;
     }
-    let density = spectrum.density();
     let n = density.len();
     let fs = spectrum.sample_rate();
     let nearest = spectrum.nearest_bin(centre_hz);
@@ -124,21 +137,49 @@ pub fn estimate_noise_density_within(
     message_bandwidth_hz: f64,
     flat_hz: f64,
 ) -> Option<f64> {
-    if spectrum.frames() == 0 || !carrier.frequency_hz.is_finite() {
+    if spectrum.frames() == 0 {
         return None;
     }
     let density = spectrum.density();
+    let mut floor = Vec::with_capacity(density.len());
+    estimate_noise_density_in(
+        spectrum,
+        &density,
+        carrier,
+        message_bandwidth_hz,
+        flat_hz,
+        &mut floor,
+    )
+}
+
+/// [`estimate_noise_density_within`] on `density` (the spectrum's density, read by the caller),
+/// with `floor` as room for the floor's bins: a meter passes buffers of its own, so a reading
+/// allocates nothing once `floor` has grown to the spectrum's length.
+pub(crate) fn estimate_noise_density_in(
+    spectrum: &PowerSpectrum,
+    density: &[f64],
+    carrier: &CarrierPeak,
+    message_bandwidth_hz: f64,
+    flat_hz: f64,
+    floor: &mut Vec<f64>,
+) -> Option<f64> {
+    if spectrum.frames() == 0 || !carrier.frequency_hz.is_finite() {
+        return None;
+    }
     let n = density.len();
     let exclusion = message_bandwidth_hz.max(0.0) * 1.05 + 4.0 * spectrum.bin_width();
     let fs = spectrum.sample_rate();
-    let mut floor: Vec<f64> = (0..n)
-        .filter(|&k| k.min(n - k) > DC_GUARD_BINS)
-        .filter(|&k| spectrum.bin_frequency(k).abs() <= flat_hz)
-        .filter(|&k| {
-            circular_offset(spectrum.bin_frequency(k), carrier.frequency_hz, fs).abs() > exclusion
-        })
-        .map(|k| density[k])
-        .collect();
+    floor.clear();
+    floor.extend(
+        (0..n)
+            .filter(|&k| k.min(n - k) > DC_GUARD_BINS)
+            .filter(|&k| spectrum.bin_frequency(k).abs() <= flat_hz)
+            .filter(|&k| {
+                circular_offset(spectrum.bin_frequency(k), carrier.frequency_hz, fs).abs()
+                    > exclusion
+            })
+            .map(|k| density[k]),
+    );
     if floor.len() < MIN_FLOOR_BINS {
         return None;
     }

@@ -29,7 +29,7 @@
 //! the reference within 2 dB (min/max ≥ 0.8) over the window, our choice, no source: a 20 dB
 //! fade over 2 s passes (1 dB per window), the edge of a start or a stop does not.
 
-use super::carrier::{estimate_noise_density_within, find_carrier, MAIN_LOBE_HALF_WIDTH_BINS};
+use super::carrier::{estimate_noise_density_in, find_carrier_in, MAIN_LOBE_HALF_WIDTH_BINS};
 use super::PowerSpectrum;
 use crate::{Complex32, Error, Result};
 use serde::Serialize;
@@ -182,7 +182,9 @@ pub struct CarrierMeter {
     /// Where the next sample goes in the lines.
     at: usize,
     spectrum: PowerSpectrum,
+    /// The spectrum's density at a window's end, and room for its floor's bins.
     density: Vec<f64>,
+    floor: Vec<f64>,
     ratios: Vec<f32>,
     /// Samples pushed so far (undelayed).
     pushed: u64,
@@ -280,6 +282,7 @@ impl CarrierMeter {
             references: vec![0.0; span - 1 + LINE_ROOM],
             at: span - 1,
             density: vec![0.0; fft_len],
+            floor: Vec::with_capacity(fft_len),
             spectrum,
             ratios: Vec::with_capacity(window_len),
             pushed: 0,
@@ -462,9 +465,16 @@ impl CarrierMeter {
     /// Carrier power and noise density of the window, if the spectrum could be read.
     fn carrier_and_noise(&mut self) -> Option<(f64, f64)> {
         let s = &self.settings;
-        let peak = find_carrier(&self.spectrum, 0.0, s.search_hz)?;
-        let n0 =
-            estimate_noise_density_within(&self.spectrum, &peak, s.bandwidth_hz, s.flat_band_hz)?;
+        let (spectrum, density) = (&self.spectrum, &self.density);
+        let peak = find_carrier_in(spectrum, density, 0.0, s.search_hz)?;
+        let n0 = estimate_noise_density_in(
+            spectrum,
+            density,
+            &peak,
+            s.bandwidth_hz,
+            s.flat_band_hz,
+            &mut self.floor,
+        )?;
         let lobe = (2 * MAIN_LOBE_HALF_WIDTH_BINS + 1) as f64 * self.spectrum.bin_width();
         let carrier = (peak.power - n0 * lobe).max(0.0);
         Some((carrier, n0))
