@@ -29,7 +29,7 @@ use super::runtime::{joined, pool, write_stage, Filled, RunTotals, RuntimeConfig
 use crate::block::{FLUSH_PIECE, PIECE};
 use crate::demod::{BackHalf, FrontHalf, GuardHalf, Receiver};
 use crate::{Complex32, Error, Result};
-use crossbeam_channel::{bounded, Receiver as Rx, Select, Sender as Tx};
+use crossbeam_channel::{bounded, Receiver as Rx, Sender as Tx};
 use std::thread;
 
 /// What the run needs to know of the whole receiver before it is cut in two.
@@ -563,29 +563,34 @@ where
     Src: FnMut(&mut [Complex32]) -> Result<usize>,
 {
     let mut read_result = Ok(());
+    // Stands in for the free buffers once reading is done. `select!` builds its list of
+    // operations on the stack (a `Select` allocates one per turn of this loop).
+    let done_reading = crossbeam_channel::never();
     loop {
-        let mut select = Select::new();
-        let reading = (read.reading != Reading::Done).then(|| select.recv(&read.free));
-        let backing = select.recv(&full_batches);
-        let op = select.select();
-        if Some(op.index()) == reading {
-            match op.recv(&read.free) {
-                Ok(buf) => {
-                    if let Err(e) = read.step(buf) {
-                        // The front half drains what it has; the error ends the run.
-                        read_result = Err(e);
-                        read.stop();
+        let free = if read.reading == Reading::Done {
+            &done_reading
+        } else {
+            &read.free
+        };
+        let flow = crossbeam_channel::select! {
+            recv(free) -> buf => {
+                match buf {
+                    Ok(buf) => {
+                        if let Err(e) = read.step(buf) {
+                            // The front half drains what it has; the error ends the run.
+                            read_result = Err(e);
+                            read.stop();
+                        }
                     }
+                    Err(_) => read.stop(),
                 }
-                Err(_) => read.stop(),
+                continue;
             }
-            continue;
-        }
-        debug_assert_eq!(op.index(), backing);
-        let flow = match op.recv(&full_batches) {
-            // The front half has finished and everything it sent is through.
-            Err(_) => Ok(Flow::Stop),
-            Ok(batch) => back.batch(batch),
+            recv(full_batches) -> batch => match batch {
+                // The front half has finished and everything it sent is through.
+                Err(_) => Ok(Flow::Stop),
+                Ok(batch) => back.batch(batch),
+            },
         };
         match flow {
             Ok(Flow::Go) => {}
