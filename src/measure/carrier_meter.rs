@@ -148,6 +148,8 @@ impl Triangle {
         }
     }
 
+    /// One sample: the plain form of [`Triangle::fill`], which the tests hold it to.
+    #[cfg(test)]
     fn next(&mut self, x: f64) -> f64 {
         let len = self.first.len() as f64;
         self.sums[0] += x - self.first[self.at];
@@ -160,6 +162,40 @@ impl Triangle {
             self.at = 0;
         }
         self.sums[1] / len
+    }
+
+    /// [`Triangle::next`] of each of `xs` into `out` (same length), the same arithmetic in
+    /// the same order: runs up to the ring's end with the sums in locals (callgrind on the am
+    /// command: 21 instructions per sample through `next`).
+    fn fill(&mut self, xs: &[f32], out: &mut [f64]) {
+        let len = self.first.len();
+        let lenf = len as f64;
+        let [mut s0, mut s1] = self.sums;
+        let mut done = 0;
+        while done < xs.len() {
+            let run = (len - self.at).min(xs.len() - done);
+            let ring = self.at..self.at + run;
+            for (((&x, o), first), second) in xs[done..done + run]
+                .iter()
+                .zip(&mut out[done..done + run])
+                .zip(&mut self.first[ring.clone()])
+                .zip(&mut self.second[ring])
+            {
+                let x = f64::from(x);
+                s0 += x - *first;
+                *first = x;
+                let mean = s0 / lenf;
+                s1 += mean - *second;
+                *second = mean;
+                *o = s1 / lenf;
+            }
+            done += run;
+            self.at += run;
+            if self.at == len {
+                self.at = 0;
+            }
+        }
+        self.sums = [s0, s1];
     }
 }
 
@@ -367,16 +403,17 @@ impl CarrierMeter {
         }
         line[given..].fill(0.0);
         for (d, &w) in self.wide_line[at..at + n].iter_mut().zip(wide) {
-            *d = if w.re.is_finite() && w.im.is_finite() {
+            // Finite exactly when x·0 is 0 for both parts: no branch, so the loop vectorises.
+            *d = if w.re * 0.0 + w.im * 0.0 == 0.0 {
                 w
             } else {
                 Complex32::default()
             };
         }
-        let references = &mut self.references[at..at + n];
-        for (r, &e) in references.iter_mut().zip(&self.envelope_line[at..at + n]) {
-            *r = self.reference.next(f64::from(e));
-        }
+        self.reference.fill(
+            &self.envelope_line[at..at + n],
+            &mut self.references[at..at + n],
+        );
         // The reference at input `pushed + i` is centred on the sample `lag` pushes older, at
         // `at + i − lag` in the lines; the first `lag` inputs of the run complete none.
         let first = (lag as u64).saturating_sub(self.pushed).min(n as u64) as usize;
@@ -881,6 +918,25 @@ mod tests {
     use rand_distr::{Distribution, Normal};
 
     /// The root finder against plain bisection (60 halvings of [0, 4]) on the same model.
+    #[test]
+    fn triangle_runs_match_the_sample_by_sample_form_bit_for_bit() {
+        use rand::RngExt;
+        let mut rng = StdRng::seed_from_u64(3);
+        let xs: Vec<f32> = (0..5000).map(|_| rng.random_range(0.0..2.0)).collect();
+        let mut plain = Triangle::new(37);
+        let expected: Vec<f64> = xs.iter().map(|&x| plain.next(f64::from(x))).collect();
+        // Pieces that end inside, at and across the ring's end.
+        for piece in [1, 5, 36, 37, 38, 100, 5000] {
+            let mut runs = Triangle::new(37);
+            let mut got = vec![0.0; xs.len()];
+            for (x, o) in xs.chunks(piece).zip(got.chunks_mut(piece)) {
+                runs.fill(x, o);
+            }
+            let same = got.iter().zip(&expected).all(|(a, b)| a.to_bits() == b.to_bits());
+            assert!(same, "pieces of {piece}");
+        }
+    }
+
     #[test]
     fn regula_falsi_agrees_with_bisection() {
         let cosines = model_cosines();
