@@ -32,7 +32,7 @@ fn circular_offset(f: f64, centre: f64, sample_rate: f64) -> f64 {
 /// |x| < 2⁵² (the whole-number part then converts exactly and x − trunc(x) is exact); other
 /// values go to `f64::round`. Asked once per bin per window by the carrier search.
 fn round_half_away(x: f64) -> f64 {
-    if !(x.abs() < 4_503_599_627_370_496.0) {
+    if x.is_nan() || x.abs() >= 4_503_599_627_370_496.0 {
         return x.round();
     }
     let whole = x as i64 as f64;
