@@ -256,9 +256,23 @@ mod tests {
     #[test]
     fn round_half_away_is_the_library_round_bit_for_bit() {
         let mut values = vec![
-            0.0, -0.0, 0.5, -0.5, 1.5, -1.5, 2.5, -2.5, 0.499_999_999_999_999_94, -0.3,
-            4_503_599_627_370_495.5, 4_503_599_627_370_496.0, 1e300, f64::INFINITY,
-            f64::NEG_INFINITY, f64::MIN_POSITIVE, -f64::MIN_POSITIVE,
+            0.0,
+            -0.0,
+            0.5,
+            -0.5,
+            1.5,
+            -1.5,
+            2.5,
+            -2.5,
+            0.499_999_999_999_999_94,
+            -0.3,
+            4_503_599_627_370_495.5,
+            4_503_599_627_370_496.0,
+            1e300,
+            f64::INFINITY,
+            f64::NEG_INFINITY,
+            f64::MIN_POSITIVE,
+            -f64::MIN_POSITIVE,
         ];
         // Seeded spread over the offsets the carrier search meets (|d/fs| up to 2) and beyond.
         use rand::{RngExt, SeedableRng};
@@ -268,7 +282,11 @@ mod tests {
             values.extend([x, x * 1e6, (x * 8.0).round() / 8.0]);
         }
         for x in values {
-            assert_eq!(round_half_away(x).to_bits(), x.round().to_bits(), "x = {x:e}");
+            assert_eq!(
+                round_half_away(x).to_bits(),
+                x.round().to_bits(),
+                "x = {x:e}"
+            );
         }
         assert!(round_half_away(f64::NAN).is_nan());
     }

@@ -947,7 +947,10 @@ mod tests {
             for (x, o) in xs.chunks(piece).zip(got.chunks_mut(piece)) {
                 runs.fill(x, o);
             }
-            let same = got.iter().zip(&expected).all(|(a, b)| a.to_bits() == b.to_bits());
+            let same = got
+                .iter()
+                .zip(&expected)
+                .all(|(a, b)| a.to_bits() == b.to_bits());
             assert!(same, "pieces of {piece}");
         }
     }
@@ -1009,7 +1012,10 @@ mod tests {
                 let mut keys: Vec<i32> = values.iter().map(|&v| order_key(v)).collect();
                 let (lo, hi) = tail_ranks(&mut keys, lo_at, hi_at);
                 let (want_lo, want_hi) = (sorted[lo_at], sorted[hi_at]);
-                assert_eq!((lo.to_bits(), hi.to_bits()), (want_lo.to_bits(), want_hi.to_bits()));
+                assert_eq!(
+                    (lo.to_bits(), hi.to_bits()),
+                    (want_lo.to_bits(), want_hi.to_bits())
+                );
             }
         }
     }
