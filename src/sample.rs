@@ -35,7 +35,9 @@ impl Sample for Complex32 {
     const ZERO: Self = Complex32::new(0.0, 0.0);
     #[inline]
     fn is_finite_sample(&self) -> bool {
-        self.re.is_finite() && self.im.is_finite()
+        // x·0 is ±0 for finite x and NaN otherwise: the same answer as testing each part,
+        // without a branch, so loops that test samples vectorise.
+        self.re * 0.0 + self.im * 0.0 == 0.0
     }
 }
 

@@ -116,7 +116,7 @@ fn push_complex(dst: &mut [Complex32], src: &[Complex32]) {
     #[inline(always)]
     fn kernel(dst: &mut [Complex32], src: &[Complex32]) {
         for (d, x) in dst.iter_mut().zip(src) {
-            let finite = x.re * 0.0 + x.im * 0.0 == 0.0;
+            let finite = x.is_finite_sample();
             let mask = if finite { u32::MAX } else { 0 };
             *d = Complex32::new(
                 f32::from_bits(x.re.to_bits() & mask),

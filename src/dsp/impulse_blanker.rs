@@ -237,13 +237,11 @@ impl ImpulseBlanker {
         let alpha = 1.0 / level_samples;
         let block = ((level_samples / 16.0).min(MAX_BLOCK as f64) as usize / LANES * LANES)
             .max(LANES) as u64;
+        // |x|² over level² in log2: dB/10·log2(10).
+        let threshold_log2 = t / 10.0 * std::f64::consts::LOG2_10;
         Ok(ImpulseBlanker {
-            // |x|² over level² in log2: dB/10·log2(10).
-            threshold_log2: t / 10.0 * std::f64::consts::LOG2_10,
-            threshold_ratios: (
-                (-t / 10.0 * std::f64::consts::LOG2_10).exp2(),
-                (t / 10.0 * std::f64::consts::LOG2_10).exp2(),
-            ),
+            threshold_log2,
+            threshold_ratios: ((-threshold_log2).exp2(), threshold_log2.exp2()),
             floor_power: settings.floor.max(0.0).powi(2),
             alpha,
             pre,

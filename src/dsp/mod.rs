@@ -9,6 +9,7 @@ pub mod fir;
 pub mod gain;
 pub mod hilbert;
 mod history;
+pub(crate) use history::store_finite;
 pub mod impulse_blanker;
 pub mod iq_balance;
 pub mod kaiser;

@@ -255,6 +255,7 @@ mod tests {
 
     #[test]
     fn round_half_away_is_the_library_round_bit_for_bit() {
+        use rand::{RngExt, SeedableRng};
         let mut values = vec![
             0.0,
             -0.0,
@@ -275,7 +276,6 @@ mod tests {
             -f64::MIN_POSITIVE,
         ];
         // Seeded spread over the offsets the carrier search meets (|d/fs| up to 2) and beyond.
-        use rand::{RngExt, SeedableRng};
         let mut rng = rand::rngs::StdRng::seed_from_u64(7);
         for _ in 0..100_000 {
             let x: f64 = rng.random_range(-4.0..4.0);

@@ -31,6 +31,7 @@
 
 use super::carrier::{estimate_noise_density_in, find_carrier_in, MAIN_LOBE_HALF_WIDTH_BINS};
 use super::PowerSpectrum;
+use crate::dsp::store_finite;
 use crate::{Complex32, Error, Result};
 use serde::Serialize;
 
@@ -403,14 +404,7 @@ impl CarrierMeter {
             *e = if v.is_finite() { v } else { 0.0 };
         }
         line[given..].fill(0.0);
-        for (d, &w) in self.wide_line[at..at + n].iter_mut().zip(wide) {
-            // Finite exactly when x·0 is 0 for both parts: no branch, so the loop vectorises.
-            *d = if w.re * 0.0 + w.im * 0.0 == 0.0 {
-                w
-            } else {
-                Complex32::default()
-            };
-        }
+        store_finite(&mut self.wide_line[at..at + n], wide);
         self.reference.fill(
             &self.envelope_line[at..at + n],
             &mut self.references[at..at + n],
@@ -932,7 +926,6 @@ mod tests {
     use rand::{rngs::StdRng, SeedableRng};
     use rand_distr::{Distribution, Normal};
 
-    /// The root finder against plain bisection (60 halvings of [0, 4]) on the same model.
     #[test]
     fn triangle_runs_match_the_sample_by_sample_form_bit_for_bit() {
         use rand::RngExt;
@@ -955,6 +948,7 @@ mod tests {
         }
     }
 
+    /// The root finder against plain bisection (60 halvings of [0, 4]) on the same model.
     #[test]
     fn regula_falsi_agrees_with_bisection() {
         let cosines = model_cosines();
